@@ -1,0 +1,177 @@
+import type { CfaPattern, Frame, Optics } from './frame/types.ts';
+import { resolveOptics, type UserOptics } from './frame/optics.ts';
+import { toMeasurePlane } from './frame/plane.ts';
+import { estimateSky, subtractSky } from './image/background.ts';
+import { detectStars } from './stars/detect.ts';
+import { packStamps } from './stars/stamps.ts';
+import { measureAll } from './stars/measure-pool.ts';
+import type { Star, StarFlag } from './stars/types.ts';
+import { median } from './image/stats.ts';
+import { SkyloupeError } from './errors.ts';
+
+export interface AnalyzeOptions {
+  user?: UserOptics;
+  /** Treat the frame as a colour-filter mosaic with this layout (overrides the header). */
+  cfa?: CfaPattern | null;
+  /** Detection threshold in filtered-noise units. */
+  threshold?: number;
+  /** Worker threads for the per-star work (0 = this thread). */
+  workers?: number;
+  model?: 'auto' | 'gaussian' | 'moffat';
+  /** At most this many stars are measured (the most significant); the report says so. */
+  maxStars?: number;
+  signal?: AbortSignal;
+  onProgress?: (stage: string, fraction: number) => void;
+}
+
+export interface Analysis {
+  readonly frame: {
+    readonly width: number;
+    readonly height: number;
+    readonly format: Frame['format'];
+    readonly displayTopRow: Frame['displayTopRow'];
+    readonly cfa: CfaPattern | null;
+    readonly saturationLevel: number | null;
+  };
+  readonly optics: Optics;
+  /** The measured plane: full resolution, or 2x2 superpixels for mosaics (coordinates in stars[] are full resolution). */
+  readonly plane: { readonly width: number; readonly height: number; readonly scale: number; readonly offset: number };
+  readonly sky: { readonly level: number; readonly sigma: number; readonly boxPx: number };
+  readonly detection: {
+    readonly threshold: number;
+    readonly psfSigmaPx: number;
+    readonly candidates: number;
+    readonly measured: number;
+    readonly subset: null | { readonly of: number; readonly rule: string };
+    readonly flagged: Readonly<Partial<Record<StarFlag, number>>>;
+  };
+  readonly stars: Star[];
+  /** Seconds per stage. */
+  readonly timings: Readonly<Record<string, number>>;
+}
+
+/** Below this SNR a star is measured but kept out of the field statistics. */
+export const MIN_FIELD_SNR = 10;
+
+function checkAbort(signal?: AbortSignal): void {
+  if (signal?.aborted) throw new SkyloupeError('cancelled', 'analysis cancelled');
+}
+
+/** The single-frame pipeline: plane -> sky -> detect -> measure, each step a pure function. */
+export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Promise<Analysis> {
+  const timings: Record<string, number> = {};
+  let t = performance.now();
+  const lap = (name: string) => {
+    const now = performance.now();
+    timings[name] = (now - t) / 1000;
+    t = now;
+  };
+  const progress = opts.onProgress ?? (() => {});
+  const cfa = opts.cfa !== undefined ? opts.cfa : frame.cfa;
+  const plane = toMeasurePlane(frame, { cfa });
+  const optics = resolveOptics(frame.hints, opts.user ?? {}, plane.scale);
+  checkFrameHasSignal(plane.data);
+  lap('plane');
+  progress('background', 0);
+  const sky = estimateSky(plane.data, plane.width, plane.height);
+  const { residual, missing } = subtractSky(plane.data, sky);
+  lap('background');
+  checkAbort(opts.signal);
+  progress('detect', 0);
+  const det = detectStars(residual, plane.data, missing, plane.width, plane.height, sky, {
+    threshold: opts.threshold,
+    saturationLevel: plane.saturationLevel,
+  });
+  lap('detect');
+  checkAbort(opts.signal);
+  if (det.candidates.length === 0) {
+    throw new SkyloupeError('no-stars', `no stars found above ${det.threshold} sigma (sky ${fmt(sky.globalLevel)} +/- ${fmt(sky.globalSigma)} ADU): cloudy, empty or heavily defocused frame?`);
+  }
+  let candidates = det.candidates;
+  let subset: Analysis['detection']['subset'] = null;
+  const maxStars = opts.maxStars ?? 30000;
+  if (candidates.length > maxStars) {
+    candidates = [...candidates].sort((a, b) => b.significance - a.significance).slice(0, maxStars);
+    subset = { of: det.candidates.length, rule: `the ${maxStars} most significant detections` };
+  }
+  const gain = numberMeta(frame.meta, ['GAIN', 'EGAIN']);
+  const batch = packStamps(residual, missing, plane.width, plane.height, sky, candidates, det.stampRadius, det.psfSigmaPx, gain);
+  lap('stamps');
+  progress('measure', 0);
+  const measured = await measureAll(batch, {
+    workers: opts.workers,
+    model: opts.model,
+    signal: opts.signal,
+    onProgress: (f) => progress('measure', f),
+  });
+  lap('measure');
+  const stars = finishStars(measured, plane.scale, plane.offset);
+  const flagged: Partial<Record<StarFlag, number>> = {};
+  for (const s of stars) for (const f of s.flags) flagged[f] = (flagged[f] ?? 0) + 1;
+  lap('finish');
+  progress('done', 1);
+  return {
+    frame: { width: frame.width, height: frame.height, format: frame.format, displayTopRow: frame.displayTopRow, cfa, saturationLevel: frame.saturationLevel },
+    optics,
+    plane: { width: plane.width, height: plane.height, scale: plane.scale, offset: plane.offset },
+    sky: { level: sky.globalLevel, sigma: sky.globalSigma, boxPx: sky.box * plane.scale },
+    detection: { threshold: det.threshold, psfSigmaPx: det.psfSigmaPx * plane.scale, candidates: det.candidates.length, measured: stars.length, subset, flagged },
+    stars,
+    timings,
+  };
+}
+
+function fmt(v: number): string {
+  return Number.isFinite(v) ? v.toPrecision(4) : String(v);
+}
+
+function numberMeta(meta: Frame['meta'], keys: string[]): number | null {
+  for (const k of keys) {
+    const v = meta[k];
+    if (typeof v === 'number' && v > 0 && Number.isFinite(v)) return v;
+  }
+  return null;
+}
+
+/** A frame that is all missing or flat has no stars; say so instead of measuring noise. */
+function checkFrameHasSignal(data: Float32Array): void {
+  let lo = Infinity;
+  let hi = -Infinity;
+  let valid = 0;
+  const step = Math.max(1, Math.floor(data.length / 2_000_000));
+  for (let i = 0; i < data.length; i += step) {
+    const v = data[i];
+    if (v === v) { valid++; if (v < lo) lo = v; if (v > hi) hi = v; }
+  }
+  if (valid === 0) throw new SkyloupeError('no-stars', 'every pixel is missing (NaN or BLANK): nothing to measure');
+  if (hi === lo) throw new SkyloupeError('no-stars', `the frame is constant (every pixel ${fmt(lo)}): nothing to measure`);
+}
+
+/**
+ * Map plane coordinates to the full-resolution frame, and add the flags that need the
+ * whole population: much smaller than the typical star (cosmic ray) or too faint.
+ */
+function finishStars(stars: Star[], scale: number, offset: number): Star[] {
+  const good = stars.filter((s) => s.flags.length === 0 && Number.isFinite(s.fwhmPx));
+  const sizes = Float64Array.from(good.map((s) => s.fwhmPx));
+  const typical = sizes.length ? median(sizes, sizes.length) : NaN;
+  return stars.map((s) => {
+    const flags = [...s.flags];
+    if (Number.isFinite(typical) && s.fwhmPx < 0.5 * typical && !flags.includes('hot-pixel') && !flags.includes('cosmic-ray')) flags.push('cosmic-ray');
+    if (!(s.snr >= MIN_FIELD_SNR) && !flags.includes('low-snr')) flags.push('low-snr');
+    if (scale === 1 && offset === 0 && flags.length === s.flags.length) return s;
+    const k = scale;
+    return {
+      ...s,
+      x: k * s.x + offset,
+      y: k * s.y + offset,
+      fwhmPx: k * s.fwhmPx,
+      fwhmMajorPx: k * s.fwhmMajorPx,
+      fwhmMinorPx: k * s.fwhmMinorPx,
+      hfdPx: k * s.hfdPx,
+      moments: { ...s.moments, ixx: k * k * s.moments.ixx, iyy: k * k * s.moments.iyy, ixy: k * k * s.moments.ixy },
+      err: { ...s.err, x: k * s.err.x, y: k * s.err.y, fwhmPx: k * s.err.fwhmPx, hfdPx: k * s.err.hfdPx },
+      flags,
+    };
+  });
+}

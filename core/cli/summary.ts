@@ -1,0 +1,37 @@
+import type { Report, ZoneSummary } from '../report/types.ts';
+
+const f = (v: number | null, digits = 2) => (v === null ? 'n/a' : v.toFixed(digits));
+
+function zoneLine(z: ZoneSummary, plate: boolean): string {
+  if (z.stars === 0) return 'no stars';
+  const arc = plate && z.medianFwhmArcsec !== null ? ` (${f(z.medianFwhmArcsec)}")` : '';
+  return `${z.stars} stars, FWHM ${f(z.medianFwhmPx)} px${arc}, HFD ${f(z.medianHfdPx)} px, ellipticity ${f(z.medianEllipticity, 3)}`;
+}
+
+/** The short human summary printed by `skyloupe analyze`. */
+export function formatSummary(r: Report): string {
+  const o = r.frame.optics;
+  const plate = o.plateScaleArcsecPerPx !== null;
+  const lines: string[] = [];
+  lines.push(`${r.frame.path}: ${r.frame.width} x ${r.frame.height} ${r.frame.format}${r.frame.cfa ? ` (${r.frame.cfa} mosaic, measured on 2x2 superpixels)` : ''}`);
+  const opt = [
+    o.focalLengthMm !== null ? `${o.focalLengthMm} mm` : 'focal length unknown',
+    o.fNumber !== null ? `f/${o.fNumber}` : 'f-number unknown',
+    o.pixelSizeUm !== null ? `${o.pixelSizeUm} um pixels` : 'pixel size unknown',
+  ];
+  lines.push(`optics: ${opt.join(', ')}${plate ? `, ${o.plateScaleArcsecPerPx!.toFixed(3)}"/px` : ''}`);
+  const d = r.detection;
+  const flagged = Object.entries(d.flagged).map(([k, v]) => `${v} ${k}`).join(', ');
+  lines.push(`stars: ${d.candidates} detected, ${d.measured} measured, ${d.usedForField} used for the field${flagged ? ` (set aside: ${flagged})` : ''}`);
+  if (d.subset) lines.push(`note: measured a subset, ${d.subset.rule} of ${d.subset.of}`);
+  const s = r.summary;
+  const arc = plate && s.medianFwhmArcsec !== null ? ` = ${f(s.medianFwhmArcsec)}"` : '';
+  lines.push(`median FWHM ${f(s.medianFwhmPx)} px${arc}, HFD ${f(s.medianHfdPx)} px, ellipticity ${f(s.medianEllipticity, 3)}`);
+  lines.push(`centre:  ${zoneLine(s.center, plate)}`);
+  lines.push(`corners: ${zoneLine(s.corners, plate)}`);
+  if (s.center.medianFwhmPx && s.corners.medianFwhmPx) {
+    lines.push(`corner/centre FWHM ratio ${(s.corners.medianFwhmPx / s.center.medianFwhmPx).toFixed(2)}`);
+  }
+  if (!plate) lines.push('tip: give --focal-length and --pixel-size to get arcseconds and micrometres');
+  return lines.join('\n');
+}

@@ -1,0 +1,69 @@
+/** Where an optics value came from; `null` when nobody gave it. */
+export type OpticsSource = 'header' | 'exif' | 'user' | 'derived' | null;
+
+export interface Optics {
+  readonly focalLengthMm: number | null;
+  /** Effective pixel pitch of the analysed pixels (binning included), micrometres. */
+  readonly pixelSizeUm: number | null;
+  readonly fNumber: number | null;
+  /** 206.265 * pixelSizeUm / focalLengthMm, or null when either is unknown. */
+  readonly plateScaleArcsecPerPx: number | null;
+  readonly source: {
+    readonly focalLengthMm: OpticsSource;
+    readonly pixelSizeUm: OpticsSource;
+    readonly fNumber: OpticsSource;
+    readonly plateScaleArcsecPerPx: OpticsSource;
+  };
+}
+
+/** Optics as a file states them, before user overrides. Any field may be missing. */
+export interface OpticsHints {
+  focalLengthMm?: number;
+  pixelSizeUm?: number;
+  fNumber?: number;
+  apertureMm?: number;
+  /** Binning already applied to the stored pixels (XBINNING). */
+  binning?: number;
+  /** What the hints were read from. */
+  from: 'header' | 'exif';
+  camera?: string;
+}
+
+/** Colour-filter-array layout of the stored mosaic, e.g. 'RGGB' (top-left 2x2 in storage order). */
+export type CfaPattern = 'RGGB' | 'BGGR' | 'GRBG' | 'GBRG';
+
+export type FrameFormat = 'fits' | 'fits-tiled' | 'tiff' | 'png' | 'jpeg' | 'raw';
+
+/**
+ * A decoded frame: one plane of linear intensities in storage order
+ * (x = column, y = row as stored, pixel centres at integers), NaN for missing pixels.
+ */
+export interface Frame {
+  readonly width: number;
+  readonly height: number;
+  readonly data: Float32Array;
+  readonly format: FrameFormat;
+  /** Highest value the encoding can hold (after BZERO/BSCALE), used to flag saturation; null if unbounded (float data). */
+  readonly saturationLevel: number | null;
+  /** Colour-filter-array layout if the stored pixels are a raw mosaic. */
+  readonly cfa: CfaPattern | null;
+  /** Which stored row is shown at the top of the display. */
+  readonly displayTopRow: 'first' | 'last';
+  readonly hints: OpticsHints | null;
+  /** Header keywords (FITS) or metadata tags, for the report; values as parsed. */
+  readonly meta: Readonly<Record<string, string | number | boolean>>;
+}
+
+/**
+ * The plane that is measured. For CFA data it is a 2x2-superpixel luminance; `scale`
+ * and `offset` map its coordinates back to the full-resolution frame:
+ * xFull = scale * x + offset.
+ */
+export interface MeasurePlane {
+  readonly width: number;
+  readonly height: number;
+  readonly data: Float32Array;
+  readonly scale: number;
+  readonly offset: number;
+  readonly saturationLevel: number | null;
+}

@@ -1,0 +1,197 @@
+import { clippedStats, median } from './stats.ts';
+
+/**
+ * Sky model on a mesh of boxes (Bertin & Arnouts 1996, A&AS 117, 393, section 3.1):
+ * sigma-clipped mode per box, a 3x3 median filter over the mesh, then bilinear
+ * interpolation between box centres. Follows gradients from light pollution or the Moon
+ * on scales larger than the box; gives a per-region noise.
+ */
+export interface SkyModel {
+  readonly width: number;
+  readonly height: number;
+  readonly box: number;
+  readonly meshW: number;
+  readonly meshH: number;
+  /** Per-box background level and noise sigma (ADU), row-major meshW * meshH. */
+  readonly meshLevel: Float32Array;
+  readonly meshSigma: Float32Array;
+  /** Median of the per-box sigmas. */
+  readonly globalSigma: number;
+  readonly globalLevel: number;
+}
+
+export interface BackgroundOptions {
+  /** Box size in pixels; Source Extractor's default BACK_SIZE is 64 (common practice). */
+  box?: number;
+  /** Median filter size over the mesh (BACK_FILTERSIZE), odd. */
+  filter?: number;
+}
+
+export function estimateSky(data: Float32Array, width: number, height: number, opts: BackgroundOptions = {}): SkyModel {
+  const box = Math.max(8, Math.min(opts.box ?? 64, Math.max(8, Math.floor(Math.min(width, height) / 2))));
+  const meshW = Math.max(1, Math.round(width / box));
+  const meshH = Math.max(1, Math.round(height / box));
+  const meshLevel = new Float32Array(meshW * meshH).fill(NaN);
+  const meshSigma = new Float32Array(meshW * meshH).fill(NaN);
+  const scratch = new Float32Array(box * box * 4 + 16);
+  for (let my = 0; my < meshH; my++) {
+    const y0 = Math.floor((my * height) / meshH);
+    const y1 = Math.floor(((my + 1) * height) / meshH);
+    for (let mx = 0; mx < meshW; mx++) {
+      const x0 = Math.floor((mx * width) / meshW);
+      const x1 = Math.floor(((mx + 1) * width) / meshW);
+      const area = (x1 - x0) * (y1 - y0);
+      // sample every other pixel in large boxes: ample for a clipped mode, 4x less work
+      const step = area > 4096 ? 2 : 1;
+      let n = 0;
+      let seen = 0;
+      for (let y = y0; y < y1; y += step) {
+        const row = y * width;
+        for (let x = x0; x < x1; x += step) {
+          seen++;
+          const v = data[row + x];
+          if (v === v) scratch[n++] = v;
+        }
+      }
+      if (n < Math.max(8, seen * 0.3)) continue; // mostly missing: filled from neighbours below
+      const st = clippedStats(scratch, n);
+      meshLevel[my * meshW + mx] = st.level;
+      meshSigma[my * meshW + mx] = st.sigma;
+    }
+  }
+  fillMissing(meshLevel, meshW, meshH);
+  fillMissing(meshSigma, meshW, meshH);
+  const f = opts.filter ?? 3;
+  const level = f > 1 ? medianFilterMesh(meshLevel, meshW, meshH, f) : meshLevel;
+  const sigma = f > 1 ? medianFilterMesh(meshSigma, meshW, meshH, f) : meshSigma;
+  const tmp = Float32Array.from(sigma);
+  const globalSigma = median(tmp, tmp.length);
+  const tmp2 = Float32Array.from(level);
+  const globalLevel = median(tmp2, tmp2.length);
+  return { width, height, box, meshW, meshH, meshLevel: level, meshSigma: sigma, globalSigma, globalLevel };
+}
+
+/** Replace NaN mesh cells by the mean of valid neighbours, growing outward. */
+function fillMissing(mesh: Float32Array, w: number, h: number): void {
+  let missing = 0;
+  for (let i = 0; i < mesh.length; i++) if (!(mesh[i] === mesh[i])) missing++;
+  if (missing === mesh.length) { mesh.fill(NaN); return; }
+  while (missing > 0) {
+    const next = Float32Array.from(mesh);
+    for (let y = 0; y < h; y++) {
+      for (let x = 0; x < w; x++) {
+        const i = y * w + x;
+        if (mesh[i] === mesh[i]) continue;
+        let s = 0;
+        let c = 0;
+        for (let dy = -1; dy <= 1; dy++) {
+          for (let dx = -1; dx <= 1; dx++) {
+            const xx = x + dx;
+            const yy = y + dy;
+            if (xx < 0 || yy < 0 || xx >= w || yy >= h) continue;
+            const v = mesh[yy * w + xx];
+            if (v === v) { s += v; c++; }
+          }
+        }
+        if (c > 0) { next[i] = s / c; missing--; }
+      }
+    }
+    mesh.set(next);
+  }
+}
+
+function medianFilterMesh(mesh: Float32Array, w: number, h: number, size: number): Float32Array {
+  const r = size >> 1;
+  const out = new Float32Array(mesh.length);
+  const buf = new Float32Array(size * size);
+  // beyond the mesh, values are point-reflected (2 v[edge] - v[mirror]): a linear
+  // gradient then passes the filter unchanged, where truncating the window at a
+  // corner would pull the corner level toward the interior
+  const at = (x: number, y: number): number => {
+    let sx = 0;
+    let sy = 0;
+    let xx = x;
+    let yy = y;
+    if (x < 0) { xx = Math.min(w - 1, -x); sx = -1; } else if (x >= w) { xx = Math.max(0, 2 * (w - 1) - x); sx = 1; }
+    if (y < 0) { yy = Math.min(h - 1, -y); sy = -1; } else if (y >= h) { yy = Math.max(0, 2 * (h - 1) - y); sy = 1; }
+    let v = mesh[yy * w + xx];
+    if (sx !== 0) v = 2 * mesh[yy * w + (sx < 0 ? 0 : w - 1)] - v;
+    if (sy !== 0) {
+      const ex = sx !== 0 ? (sx < 0 ? 0 : w - 1) : xx;
+      const edge = sx !== 0 ? 2 * mesh[(sy < 0 ? 0 : h - 1) * w + ex] - mesh[(sy < 0 ? 0 : h - 1) * w + xx] : mesh[(sy < 0 ? 0 : h - 1) * w + xx];
+      v = 2 * edge - v;
+    }
+    return v;
+  };
+  for (let y = 0; y < h; y++) {
+    for (let x = 0; x < w; x++) {
+      let n = 0;
+      for (let dy = -r; dy <= r; dy++) for (let dx = -r; dx <= r; dx++) buf[n++] = at(x + dx, y + dy);
+      out[y * w + x] = median(buf, n);
+    }
+  }
+  return out;
+}
+
+/** Bilinear interpolation of a mesh quantity at pixel (x, y); box centres at ((i + 0.5) * W/meshW - 0.5). */
+function meshAt(model: SkyModel, mesh: Float32Array, x: number, y: number): number {
+  const { meshW, meshH, width, height } = model;
+  let fx = ((x + 0.5) * meshW) / width - 0.5;
+  let fy = ((y + 0.5) * meshH) / height - 0.5;
+  // beyond the outer box centres the edge segment is extrapolated linearly, so a
+  // gradient keeps rising to the frame border instead of levelling off
+  const ix = Math.max(0, Math.min(Math.floor(fx), meshW - 2));
+  const iy = Math.max(0, Math.min(Math.floor(fy), meshH - 2));
+  const tx = meshW > 1 ? fx - ix : 0;
+  const ty = meshH > 1 ? fy - iy : 0;
+  const ix1 = meshW > 1 ? ix + 1 : ix;
+  const iy1 = meshH > 1 ? iy + 1 : iy;
+  const a = mesh[iy * meshW + ix];
+  const b = mesh[iy * meshW + ix1];
+  const c = mesh[iy1 * meshW + ix];
+  const d = mesh[iy1 * meshW + ix1];
+  return (a * (1 - tx) + b * tx) * (1 - ty) + (c * (1 - tx) + d * tx) * ty;
+}
+
+export function skyLevelAt(model: SkyModel, x: number, y: number): number {
+  return meshAt(model, model.meshLevel, x, y);
+}
+
+export function skyNoiseAt(model: SkyModel, x: number, y: number): number {
+  return meshAt(model, model.meshSigma, x, y);
+}
+
+/**
+ * data - sky, as a new array (the input is never changed). Missing pixels (NaN) become 0
+ * here, so filters see no hole; `missing` marks them for the edge test.
+ */
+export function subtractSky(data: Float32Array, model: SkyModel): { residual: Float32Array; missing: Uint8Array | null } {
+  const { width, height, meshW, meshH, meshLevel } = model;
+  const out = new Float32Array(width * height);
+  let missing: Uint8Array | null = null;
+  const rowLevel = new Float32Array(meshW);
+  for (let y = 0; y < height; y++) {
+    // interpolate the mesh to this row once, then along x
+    const fy = ((y + 0.5) * meshH) / height - 0.5;
+    const iy = Math.max(0, Math.min(Math.floor(fy), meshH - 2));
+    const iy1 = meshH > 1 ? iy + 1 : iy;
+    const ty = meshH > 1 ? fy - iy : 0;
+    for (let i = 0; i < meshW; i++) rowLevel[i] = meshLevel[iy * meshW + i] * (1 - ty) + meshLevel[iy1 * meshW + i] * ty;
+    const row = y * width;
+    const sx = meshW / width;
+    for (let x = 0; x < width; x++) {
+      const fx = (x + 0.5) * sx - 0.5;
+      const ix = meshW > 1 ? Math.max(0, Math.min(Math.floor(fx), meshW - 2)) : 0;
+      const tx = meshW > 1 ? fx - ix : 0;
+      const lvl = meshW > 1 ? rowLevel[ix] + (rowLevel[ix + 1] - rowLevel[ix]) * tx : rowLevel[0];
+      const v = data[row + x];
+      if (v === v) out[row + x] = v - lvl;
+      else {
+        out[row + x] = 0;
+        if (!missing) missing = new Uint8Array(width * height);
+        missing[row + x] = 1;
+      }
+    }
+  }
+  return { residual: out, missing };
+}

@@ -1,0 +1,110 @@
+import type { Analysis } from '../analyze.ts';
+import type { Star } from '../stars/types.ts';
+import { median } from '../image/stats.ts';
+import { REPORT_SCHEMA, type Report, type ReportStar, type ZoneSummary } from './types.ts';
+import { VERSION } from '../version.ts';
+
+const r4 = (v: number) => (Number.isFinite(v) ? Math.round(v * 1e4) / 1e4 : null);
+
+function med(values: number[]): number | null {
+  const a = Float64Array.from(values.filter((v) => Number.isFinite(v)));
+  return a.length ? median(a, a.length) : null;
+}
+
+export function usable(s: Star): boolean {
+  return s.flags.length === 0 && Number.isFinite(s.fwhmPx);
+}
+
+/**
+ * Centre = within 25 % of the half-diagonal of the frame centre; corners = beyond 75 %
+ * (simple radial zones for the summary; the field map has the full zone grid).
+ */
+export function radialZone(s: { x: number; y: number }, width: number, height: number): 'center' | 'corners' | 'middle' {
+  const cx = (width - 1) / 2;
+  const cy = (height - 1) / 2;
+  const r = Math.hypot(s.x - cx, s.y - cy) / Math.hypot(cx, cy);
+  return r <= 0.25 ? 'center' : r >= 0.75 ? 'corners' : 'middle';
+}
+
+function zoneSummary(zone: 'center' | 'corners', stars: Star[], plate: number | null): ZoneSummary {
+  const fwhm = med(stars.map((s) => s.fwhmPx));
+  let e1 = 0;
+  let e2 = 0;
+  for (const s of stars) { e1 += s.moments.e1; e2 += s.moments.e2; }
+  return {
+    zone,
+    stars: stars.length,
+    medianFwhmPx: fwhm === null ? null : r4(fwhm),
+    medianFwhmArcsec: fwhm !== null && plate !== null ? r4(fwhm * plate) : null,
+    medianHfdPx: r4n(med(stars.map((s) => s.hfdPx))),
+    meanShapeE: stars.length ? r4(Math.hypot(e1, e2) / stars.length) : null,
+    medianEllipticity: r4n(med(stars.map((s) => s.ellipticity))),
+  };
+}
+
+function r4n(v: number | null): number | null {
+  return v === null ? null : r4(v);
+}
+
+function reportStar(s: Star): ReportStar {
+  return {
+    x: r4(s.x)!, y: r4(s.y)!, flux: r4(s.flux)!, snr: r4(s.snr)!,
+    fwhmPx: r4(s.fwhmPx)!, fwhmMajorPx: r4(s.fwhmMajorPx)!, fwhmMinorPx: r4(s.fwhmMinorPx)!,
+    ellipticity: r4(s.ellipticity)!, thetaDeg: r4(s.thetaDeg)!, hfdPx: r4(s.hfdPx)!,
+    coma: { x: r4(s.coma.x)!, y: r4(s.coma.y)! },
+    flags: [...s.flags],
+    model: s.model,
+    moffatBeta: s.moffatBeta === null ? null : r4(s.moffatBeta),
+    e1: r4(s.moments.e1)!, e2: r4(s.moments.e2)!,
+    err: { x: r4(s.err.x)!, y: r4(s.err.y)!, fwhmPx: r4(s.err.fwhmPx)!, ellipticity: r4(s.err.ellipticity)!, thetaDeg: r4(s.err.thetaDeg)!, hfdPx: r4(s.err.hfdPx)! },
+  };
+}
+
+export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diagnosis' | 'findings' | 'field'> = {}): Report {
+  const good = a.stars.filter(usable);
+  const plate = a.optics.plateScaleArcsecPerPx;
+  const { width, height } = a.frame;
+  const center = good.filter((s) => radialZone(s, width, height) === 'center');
+  const corners = good.filter((s) => radialZone(s, width, height) === 'corners');
+  const fwhm = med(good.map((s) => s.fwhmPx));
+  return {
+    schema: REPORT_SCHEMA,
+    tool: { name: 'skyloupe', version: VERSION },
+    createdAt: new Date().toISOString(),
+    frame: {
+      path, width, height, format: a.frame.format, cfa: a.frame.cfa, optics: a.optics,
+      display: {
+        topRow: a.frame.displayTopRow,
+        note: a.frame.displayTopRow === 'last'
+          ? 'displayed with the last stored row at the top (FITS convention: y increases upward)'
+          : 'displayed with the first stored row at the top',
+      },
+    },
+    conventions: {
+      coordinates: '0-based array coordinates: x = column, y = row in storage order, pixel centres at integers',
+      angles: 'degrees from +x toward +y, major axis in (-90, 90]',
+      fwhm: 'profile-fit FWHM of the star as recorded (pixel box included)',
+    },
+    sky: { level: r4(a.sky.level)!, sigma: r4(a.sky.sigma)!, boxPx: a.sky.boxPx },
+    detection: {
+      threshold: a.detection.threshold,
+      candidates: a.detection.candidates,
+      measured: a.detection.measured,
+      usedForField: good.length,
+      subset: a.detection.subset,
+      flagged: a.detection.flagged,
+    },
+    summary: {
+      stars: good.length,
+      medianFwhmPx: r4n(fwhm),
+      medianFwhmArcsec: fwhm !== null && plate !== null ? r4(fwhm * plate) : null,
+      medianHfdPx: r4n(med(good.map((s) => s.hfdPx))),
+      medianEllipticity: r4n(med(good.map((s) => s.ellipticity))),
+      center: zoneSummary('center', center, plate),
+      corners: zoneSummary('corners', corners, plate),
+    },
+    stars: a.stars.map(reportStar),
+    ...extra,
+    timings: a.timings,
+  };
+}

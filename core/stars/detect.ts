@@ -1,0 +1,265 @@
+import type { Candidate, StarFlag } from './types.ts';
+import { convolveSeparable, filteredNoiseFactor, gaussianTaps } from '../image/convolve.ts';
+import { skyNoiseAt, type SkyModel } from '../image/background.ts';
+import { median } from '../image/stats.ts';
+
+export interface DetectOptions {
+  /** Detection threshold in units of the filtered noise. */
+  threshold?: number;
+  /** Expected PSF sigma (px); estimated from the brightest stars when absent. */
+  psfSigmaPx?: number;
+  /** Highest valid raw value; pixels at or above 99.5 % of it mark a star saturated. */
+  saturationLevel?: number | null;
+  /** Measurement stamp radius (px); stars closer than this to a border are flagged 'edge'. */
+  stampRadius?: number;
+}
+
+export interface Detection {
+  readonly candidates: Candidate[];
+  readonly psfSigmaPx: number;
+  readonly threshold: number;
+  readonly stampRadius: number;
+  /** Local maxima merged into a brighter neighbour (same object). */
+  readonly merged: number;
+}
+
+/**
+ * Matched-filter detection: convolve the sky-subtracted frame with a Gaussian of the
+ * expected PSF size (the optimal linear filter for a known PSF in white noise, common
+ * practice as in Source Extractor's FILTER step), threshold in units of the filtered
+ * noise, keep local maxima, merge maxima of one object, and flag what should not be
+ * measured rather than drop it.
+ */
+export function detectStars(
+  residual: Float32Array,
+  raw: Float32Array,
+  missing: Uint8Array | null,
+  width: number,
+  height: number,
+  sky: SkyModel,
+  opts: DetectOptions = {},
+): Detection {
+  const threshold = opts.threshold ?? 5;
+  const psfSigmaPx = opts.psfSigmaPx ?? estimatePsfSigma(residual, width, height, sky);
+  const fwhm = 2.354820045 * psfSigmaPx;
+  const stampRadius = opts.stampRadius ?? Math.min(40, Math.max(6, Math.ceil(3 * fwhm) + 1));
+  const taps = gaussianTaps(Math.max(0.6, psfSigmaPx));
+  const filtered = convolveSeparable(residual, width, height, taps);
+  const nf = filteredNoiseFactor(taps);
+  const peaks = localMaxima(filtered, width, height, sky, nf, threshold);
+  const { kept, merged } = mergePeaks(peaks, filtered, width, height, Math.max(3, 4 * psfSigmaPx));
+  const candidates = flagCandidates(kept, residual, raw, missing, width, height, psfSigmaPx, stampRadius, opts.saturationLevel ?? null);
+  return { candidates, psfSigmaPx, threshold, stampRadius, merged };
+}
+
+interface Peak { x: number; y: number; value: number; significance: number }
+
+function localMaxima(f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number): Peak[] {
+  let minSigma = Infinity;
+  for (let i = 0; i < sky.meshSigma.length; i++) if (sky.meshSigma[i] < minSigma) minSigma = sky.meshSigma[i];
+  if (!(minSigma > 0)) minSigma = sky.globalSigma > 0 ? sky.globalSigma : 1e-12;
+  const floor = threshold * minSigma * nf;
+  const peaks: Peak[] = [];
+  for (let y = 1; y < height - 1; y++) {
+    const row = y * width;
+    for (let x = 1; x < width - 1; x++) {
+      const v = f[row + x];
+      if (!(v > floor)) continue;
+      // strict 3x3 maximum (ties broken toward the first in storage order)
+      if (v < f[row + x + 1] || v <= f[row + x - 1] || v < f[row + width + x] || v <= f[row - width + x]) continue;
+      if (v < f[row + width + x + 1] || v < f[row + width + x - 1] || v <= f[row - width + x + 1] || v <= f[row - width + x - 1]) continue;
+      const noise = skyNoiseAt(sky, x, y) * nf;
+      const sig = noise > 0 ? v / noise : Infinity;
+      if (sig < threshold) continue;
+      peaks.push({ x, y, value: v, significance: sig });
+    }
+  }
+  return peaks;
+}
+
+/**
+ * Maxima of one object (a trailed or comatic star has a ridge with several noise
+ * maxima) are merged when the filtered signal along the line to a brighter maximum
+ * never drops below 70 % of the fainter one: no saddle, so no second source.
+ */
+function mergePeaks(peaks: Peak[], f: Float32Array, width: number, height: number, radius: number): { kept: Peak[]; merged: number } {
+  peaks.sort((a, b) => b.value - a.value);
+  const cell = Math.max(8, Math.ceil(radius * 4));
+  const gw = Math.ceil(width / cell);
+  const grid = new Map<number, Peak[]>();
+  const kept: Peak[] = [];
+  let merged = 0;
+  const reach = radius * 4; // ridges of trailed stars can be long
+  for (const p of peaks) {
+    const gx = Math.floor(p.x / cell);
+    const gy = Math.floor(p.y / cell);
+    let same = false;
+    for (let dy = -1; dy <= 1 && !same; dy++) {
+      for (let dx = -1; dx <= 1 && !same; dx++) {
+        const list = grid.get((gy + dy) * gw + gx + dx);
+        if (!list) continue;
+        for (const q of list) {
+          const d = Math.hypot(q.x - p.x, q.y - p.y);
+          if (d > reach) continue;
+          if (noSaddle(f, width, height, p, q, 0.7)) { same = true; break; }
+        }
+      }
+    }
+    if (same) { merged++; continue; }
+    kept.push(p);
+    const key = gy * gw + gx;
+    const list = grid.get(key);
+    if (list) list.push(p); else grid.set(key, [p]);
+  }
+  return { kept, merged };
+}
+
+function noSaddle(f: Float32Array, width: number, height: number, p: Peak, q: Peak, frac: number): boolean {
+  const d = Math.hypot(q.x - p.x, q.y - p.y);
+  const n = Math.max(2, Math.ceil(d * 2));
+  const floor = frac * p.value;
+  for (let i = 1; i < n; i++) {
+    const t = i / n;
+    const x = Math.round(p.x + (q.x - p.x) * t);
+    const y = Math.round(p.y + (q.y - p.y) * t);
+    if (x < 0 || y < 0 || x >= width || y >= height) return false;
+    if (f[y * width + x] < floor) return false;
+  }
+  return true;
+}
+
+function flagCandidates(
+  peaks: Peak[],
+  residual: Float32Array,
+  raw: Float32Array,
+  missing: Uint8Array | null,
+  width: number,
+  height: number,
+  psfSigma: number,
+  R: number,
+  saturation: number | null,
+): Candidate[] {
+  const fwhm = 2.354820045 * psfSigma;
+  // a hot pixel stands alone: its 4-neighbours carry almost nothing, unlike any PSF
+  // that the optics can form (a Gaussian of sigma s gives neighbour/centre = exp(-1/(2 s^2)))
+  const starRatio = Math.exp(-1 / (2 * psfSigma * psfSigma));
+  const hotRatio = Math.min(0.1, 0.35 * starRatio);
+  const satLevel = saturation !== null ? 0.995 * saturation : Infinity;
+  const out: Candidate[] = [];
+  const cell = Math.max(8, Math.ceil(R));
+  const gw = Math.ceil(width / cell);
+  const grid = new Map<number, number[]>();
+  peaks.forEach((p, i) => {
+    const key = Math.floor(p.y / cell) * gw + Math.floor(p.x / cell);
+    const l = grid.get(key);
+    if (l) l.push(i); else grid.set(key, [i]);
+  });
+  for (let i = 0; i < peaks.length; i++) {
+    const p = peaks[i];
+    const flags: StarFlag[] = [];
+    if (p.x < R || p.y < R || p.x >= width - R || p.y >= height - R || (missing && anyMissing(missing, width, height, p.x, p.y, R))) flags.push('edge');
+    const c = residual[p.y * width + p.x];
+    // refine to the brightest pixel of the unfiltered frame within 1 px
+    let peak = c;
+    let px = p.x;
+    let py = p.y;
+    for (let dy = -1; dy <= 1; dy++) for (let dx = -1; dx <= 1; dx++) {
+      const xx = p.x + dx; const yy = p.y + dy;
+      if (xx < 1 || yy < 1 || xx >= width - 1 || yy >= height - 1) continue;
+      const v = residual[yy * width + xx];
+      if (v > peak) { peak = v; px = xx; py = yy; }
+    }
+    if (satLevel < Infinity && anySaturated(raw, width, height, px, py, Math.max(2, Math.ceil(fwhm)), satLevel)) flags.push('saturated');
+    if (px > 0 && py > 0 && px < width - 1 && py < height - 1 && peak > 0) {
+      const n4 = (residual[py * width + px - 1] + residual[py * width + px + 1] + residual[(py - 1) * width + px] + residual[(py + 1) * width + px]) / 4;
+      if (n4 < hotRatio * peak) flags.push('hot-pixel');
+    }
+    // blended: a neighbour close enough and bright enough to bias the moments or the fit
+    const gx = Math.floor(p.x / cell);
+    const gy = Math.floor(p.y / cell);
+    let blended = false;
+    for (let dy = -1; dy <= 1 && !blended; dy++) for (let dx = -1; dx <= 1 && !blended; dx++) {
+      const l = grid.get((gy + dy) * gw + gx + dx);
+      if (!l) continue;
+      for (const j of l) {
+        if (j === i) continue;
+        const q = peaks[j];
+        const d = Math.hypot(q.x - p.x, q.y - p.y);
+        const ratio = q.value / p.value;
+        if ((d < 3 * fwhm && ratio > 0.05) || (d < R && ratio > 0.3)) { blended = true; break; }
+      }
+    }
+    if (blended) flags.push('blended');
+    out.push({ x: px, y: py, significance: p.significance, peak, flags });
+  }
+  return out;
+}
+
+function anyMissing(m: Uint8Array, width: number, height: number, x: number, y: number, r: number): boolean {
+  for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
+    const row = yy * width;
+    for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) if (m[row + xx]) return true;
+  }
+  return false;
+}
+
+function anySaturated(raw: Float32Array, width: number, height: number, x: number, y: number, r: number, level: number): boolean {
+  for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
+    const row = yy * width;
+    for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) if (raw[row + xx] >= level) return true;
+  }
+  return false;
+}
+
+/**
+ * PSF size from the brightest isolated maxima: the area above half maximum gives
+ * FWHM = 2 sqrt(A / pi) for a round profile (common practice), median over stars.
+ */
+export function estimatePsfSigma(residual: Float32Array, width: number, height: number, sky: SkyModel): number {
+  // maxima of the unfiltered frame at 15 sigma: no noise peak gets there, and no extra pass is needed
+  const peaks = localMaxima(residual, width, height, sky, 1, 15);
+  peaks.sort((a, b) => b.value - a.value);
+  const R = 15;
+  const sizes: number[] = [];
+  for (const p of peaks) {
+    if (sizes.length >= 200) break;
+    if (p.x < R || p.y < R || p.x >= width - R || p.y >= height - R) continue;
+    const c = residual[p.y * width + p.x];
+    if (!(c > 0)) continue;
+    const half = c / 2;
+    // the 4-connected region above half maximum
+    const area = halfMaxArea(residual, width, p.x, p.y, R, half);
+    if (area < 1) continue;
+    const n4 = (residual[p.y * width + p.x - 1] + residual[p.y * width + p.x + 1]) / 2;
+    if (n4 < 0.05 * c) continue; // hot pixel
+    sizes.push(2 * Math.sqrt(area / Math.PI) / 2.354820045);
+  }
+  if (sizes.length === 0) return 1.2;
+  const arr = Float64Array.from(sizes);
+  return Math.min(10, Math.max(0.5, median(arr, arr.length)));
+}
+
+function halfMaxArea(img: Float32Array, width: number, x0: number, y0: number, R: number, half: number): number {
+  const size = 2 * R + 1;
+  const seen = new Uint8Array(size * size);
+  const stack: number[] = [R * size + R];
+  seen[R * size + R] = 1;
+  let area = 0;
+  while (stack.length) {
+    const k = stack.pop()!;
+    const ly = Math.floor(k / size);
+    const lx = k - ly * size;
+    area++;
+    const nb = [k - 1, k + 1, k - size, k + size];
+    const ok = [lx > 0, lx < size - 1, ly > 0, ly < size - 1];
+    for (let j = 0; j < 4; j++) {
+      if (!ok[j]) continue;
+      const n = nb[j];
+      if (seen[n]) continue;
+      const ny = Math.floor(n / size);
+      const nx = n - ny * size;
+      if (img[(y0 + ny - R) * width + (x0 + nx - R)] > half) { seen[n] = 1; stack.push(n); }
+    }
+  }
+  return area;
+}

@@ -1,0 +1,26 @@
+// One end-to-end run on one frame, in its own process so its peak memory is its own.
+// Prints one JSON line: per-stage seconds and the peak resident set size.
+import { readFrame } from '../../core/frame/read.ts';
+import { analyzeFrame } from '../../core/analyze.ts';
+import { buildReport } from '../../core/report/build.ts';
+
+const file = process.argv[2];
+const t0 = performance.now();
+const frame = await readFrame(file);
+const tRead = (performance.now() - t0) / 1000;
+const analysis = await analyzeFrame(frame, {});
+const t1 = performance.now();
+const report = buildReport(analysis, file);
+const json = JSON.stringify(report);
+const tReport = (performance.now() - t1) / 1000;
+const total = (performance.now() - t0) / 1000;
+process.stdout.write(JSON.stringify({
+  read: tRead,
+  ...analysis.timings,
+  report: tReport,
+  total,
+  stars: report.detection.measured,
+  usable: report.detection.usedForField,
+  jsonBytes: json.length,
+  peakRssMB: process.resourceUsage().maxRSS / 1024,
+}) + '\n');
