@@ -8,6 +8,7 @@
  * other section numbers from memory. The data stay in storage order: y = stored row.
  */
 import { unreadable } from '../errors.ts';
+import { decodeTiledImage, tiledImageHeader, type TiledHeader } from './fits-tiled.ts';
 import { MAX_FRAME_PIXELS } from './limits.ts';
 import type { CfaPattern, Frame, OpticsHints } from './types.ts';
 
@@ -120,6 +121,8 @@ interface Hdu {
   dataOffset: number;
   dataBytes: number;
   randomGroups: boolean;
+  /** Set for a tile-compressed image (BINTABLE with ZIMAGE = T). */
+  tiled?: TiledHeader;
 }
 
 function intKey(keys: Map<string, FitsCard['value']>, key: string, where: string, dflt?: number): number {
@@ -175,7 +178,6 @@ function selectImage(bytes: Uint8Array): { image: Hdu; primary: Hdu } {
   if (primary.keys.get('SIMPLE') !== true) throw unreadable('not a standard FITS file: SIMPLE is not T');
   if (isImage(primary)) return { image: primary, primary };
   if (primary.randomGroups) throw unreadable('random-groups FITS data are not an image');
-  let compressed = false;
   let h = primary;
   for (let index = 1; ; index++) {
     const next = h.dataOffset + Math.ceil(h.dataBytes / BLOCK) * BLOCK;
@@ -183,9 +185,13 @@ function selectImage(bytes: Uint8Array): { image: Hdu; primary: Hdu } {
     if (!Number.isFinite(next) || next + BLOCK > bytes.length || !startsWith(bytes, next, 'XTENSION=')) break;
     h = readHdu(bytes, next, index);
     if (isImage(h)) return { image: h, primary };
-    if (h.kind === 'BINTABLE' && h.keys.get('ZIMAGE') === true) compressed = true;
+    if (h.kind === 'BINTABLE' && h.keys.get('ZIMAGE') === true) {
+      const tiled = tiledImageHeader(h.keys);
+      if (tiled.axes.length >= 2 && tiled.axes[0] > 0 && tiled.axes[1] > 0) {
+        return { image: { ...h, tiled, axes: tiled.axes, bitpix: tiled.bitpix }, primary };
+      }
+    }
   }
-  if (compressed) throw unreadable('tile-compressed FITS images (ZIMAGE) are not supported yet: decompress the file first (e.g. with funpack)');
   const n = primary.axes.length;
   throw unreadable(n >= 2
     ? `no image in this FITS file: the primary HDU has a zero-length axis and no IMAGE extension follows`
@@ -338,16 +344,30 @@ export function decodeFits(bytes: Uint8Array): Frame {
 
   const n = width * height;
   const bytesPer = Math.abs(bitpix) / 8;
-  const data = new Float32Array(n);
-  decodeSamples(bytes, image.dataOffset, n, bitpix, bzero, bscale, blank, data);
+  let data: Float32Array;
+  // Planes of a tile-compressed cube are decoded together; 'plane' reads plane k of either kind.
+  let tiledAll: Float32Array | null = null;
+  if (image.tiled) {
+    // BZERO/BSCALE/BLANK of a compressed image describe the integer image, as uncompressed (§10.1 [from memory]).
+    tiledAll = decodeTiledImage(bytes, keys, image.dataOffset, image.dataBytes, image.tiled, { bzero, bscale, blank: bitpix > 0 ? blank : null });
+    data = extra === 1 ? tiledAll : tiledAll.slice(0, n);
+  } else {
+    data = new Float32Array(n);
+    decodeSamples(bytes, image.dataOffset, n, bitpix, bzero, bscale, blank, data);
+  }
+  const plane = (k: number, tmp: Float32Array): Float32Array => {
+    if (tiledAll) return tiledAll.subarray(k * n, (k + 1) * n);
+    decodeSamples(bytes, image.dataOffset + k * n * bytesPer, n, bitpix, bzero, bscale, blank, tmp);
+    return tmp;
+  };
   if (extra === 3) {
     // Luminance as the plain mean (see colour.ts for why); a pixel clipped in any plane stays clipped.
-    const tmp = new Float32Array(n);
+    const buf = tiledAll ? new Float32Array(0) : new Float32Array(n);
     const clipped = saturationLevel === null ? null : new Uint8Array(n);
     const sat = saturationLevel ?? Infinity;
     if (clipped) for (let i = 0; i < n; i++) if (data[i] >= sat) clipped[i] = 1;
     for (let k = 1; k < 3; k++) {
-      decodeSamples(bytes, image.dataOffset + k * n * bytesPer, n, bitpix, bzero, bscale, blank, tmp);
+      const tmp = plane(k, buf);
       if (clipped) for (let i = 0; i < n; i++) { const v = tmp[i]; if (v >= sat) clipped[i] = 1; data[i] += v; }
       else for (let i = 0; i < n; i++) data[i] += tmp[i];
     }
@@ -363,6 +383,12 @@ export function decodeFits(bytes: Uint8Array): Frame {
     if (v !== undefined && v !== null) meta[k] = v;
   }
   if (image !== primary) meta.HDU = image.index;
+  if (image.tiled) {
+    // The table's own BITPIX/NAXISn describe bytes of the table, not the image.
+    meta.BITPIX = image.tiled.bitpix;
+    if (image.axes.length >= 3) meta.NAXIS3 = image.axes[2]; else delete meta.NAXIS3;
+    meta.ZCMPTYPE = image.tiled.compression;
+  }
   const roworder = merged.get('ROWORDER');
   // ROWORDER [CP: ASCOM/capture programs]: 'TOP-DOWN' = first stored row shown at the top;
   // otherwise the usual FITS display convention, first pixel at the lower left [CP, from memory].
@@ -372,7 +398,7 @@ export function decodeFits(bytes: Uint8Array): Frame {
     width,
     height,
     data,
-    format: 'fits',
+    format: image.tiled ? 'fits-tiled' : 'fits',
     saturationLevel,
     cfa: extra === 1 ? cfaFromKeys(merged) : null,
     displayTopRow,

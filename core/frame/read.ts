@@ -3,8 +3,10 @@ import { stat, readFile } from 'node:fs/promises';
 import path from 'node:path';
 import { SkyloupeError, unreadable } from '../errors.ts';
 import { decodeFits } from './fits.ts';
+import { gunzipFile } from './gzip.ts';
 import { MAX_FILE_BYTES } from './limits.ts';
 import { decodeRaster, rasterFormatOf } from './raster.ts';
+import { decodeRaw, isDng } from './raw.ts';
 import type { Frame } from './types.ts';
 
 /** Camera raw formats built on TIFF: sharp would quietly read their small preview image instead. */
@@ -16,21 +18,23 @@ function ascii(b: Uint8Array, at: number, s: string): boolean {
   return true;
 }
 
-function rawUnsupported(name: string): SkyloupeError {
-  return unreadable(`camera raw files are not supported yet (${path.extname(name) || 'raw'}): convert to FITS or 16-bit TIFF first`);
-}
 
-async function dispatch(bytes: Uint8Array, name: string): Promise<Frame> {
+async function dispatch(bytes: Uint8Array, name: string, depth = 0): Promise<Frame> {
   if (bytes.length === 0) throw unreadable('empty file');
   if (ascii(bytes, 0, 'SIMPLE  =')) return decodeFits(bytes); // FITS 4.0 §4.4.1.1: first card SIMPLE
-  if (bytes[0] === 0x1f && bytes[1] === 0x8b) throw unreadable('gzip-compressed files are not supported yet: decompress the file first');
+  if (bytes[0] === 0x1f && bytes[1] === 0x8b) {
+    // Whole-file gzip (RFC 1952 magic 1F 8B), e.g. .fits.gz; the output is bounded like a file read whole.
+    if (depth > 0) throw unreadable('gzip inside gzip is not read');
+    const inner = await gunzipFile(bytes, MAX_FILE_BYTES);
+    return dispatch(inner, name.replace(/\.gz$/i, ''), depth + 1);
+  }
   if (ascii(bytes, 0, 'XISF0100')) throw unreadable('XISF files are not supported yet: save as FITS or 16-bit TIFF');
-  if (ascii(bytes, 4, 'ftypcrx') || ascii(bytes, 0, 'FUJIFILM') || ascii(bytes, 0, 'IIRO') || ascii(bytes, 0, 'IIRS') || ascii(bytes, 0, 'IIU\0')) {
-    throw rawUnsupported(name);
+  if (ascii(bytes, 4, 'ftypcrx') || ascii(bytes, 0, 'FUJIFILM') || ascii(bytes, 0, 'IIRO') || ascii(bytes, 0, 'IIRS') || ascii(bytes, 0, 'IIU\0') || ascii(bytes, 0, 'MMOR')) {
+    return decodeRaw(bytes);
   }
   const fmt = rasterFormatOf(bytes);
   if (fmt) {
-    if (fmt === 'tiff' && TIFF_BASED_RAW.has(path.extname(name).toLowerCase())) throw rawUnsupported(name);
+    if (fmt === 'tiff' && (TIFF_BASED_RAW.has(path.extname(name).toLowerCase()) || isDng(bytes))) return decodeRaw(bytes);
     return decodeRaster(bytes);
   }
   throw unreadable('unrecognised file format (expected FITS, TIFF, PNG or JPEG)');

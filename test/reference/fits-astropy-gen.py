@@ -125,11 +125,20 @@ def gen(outdir):
     big = rng.integers(0, 65536, size=(201, 333)).astype(np.uint16)
     add('big', fits.HDUList([fits.PrimaryHDU(big)]), big.astype('f8'), bitpix=16, saturation=65535.0)
 
-    # 12. tile-compressed image only: must be refused with a message, not misread.
+    # 12. tile-compressed images (astropy CompImageHDU): decoded, values as astropy reads them.
     comp = fits.HDUList([fits.PrimaryHDU(), fits.CompImageHDU(np.arange(48, dtype=np.int16).reshape(6, 8))])
-    path = os.path.join(outdir, 'compressed.fits')
-    comp.writeto(path, overwrite=True)
-    cases.append(dict(name='compressed', file=path, error='tile-compressed'))
+    add('compressed', comp, np.arange(48, dtype='f8').reshape(6, 8), bitpix=16, saturation=32767.0)
+    noisy = (rng.normal(1000, 30, size=(97, 131)) + 0.25).astype(np.float32)
+    # (no NaN here: astropy 5.2 writes ZSCALE = NaN for a quantized tile holding a NaN; fpack's handling is tested elsewhere)
+    for algo in ('RICE_1', 'GZIP_1', 'GZIP_2'):
+        hd = fits.CompImageHDU(rng.integers(0, 65536, size=(77, 123)).astype(np.uint16), compression_type=algo, tile_shape=(16, 50))
+        add('comp_u16_' + algo, fits.HDUList([fits.PrimaryHDU(), hd]), hd.data.astype('f8'), bitpix=16, saturation=65535.0)
+    # quantized float (astropy's default: RICE_1, SUBTRACTIVE_DITHER_1): expected = astropy's own reading
+    qpath = os.path.join(outdir, 'comp_f32q.fits')
+    fits.HDUList([fits.PrimaryHDU(), fits.CompImageHDU(noisy, quantize_level=4.0)]).writeto(qpath, overwrite=True)
+    with fits.open(qpath) as chk:
+        write_f64(qpath + '.f64', np.asarray(chk[1].data, dtype='f8'))
+    cases.append(dict(name='comp_f32q', file=qpath, expected=qpath + '.f64', width=131, height=97, saturation=None))
 
     with open(os.path.join(outdir, 'manifest.json'), 'w') as f:
         json.dump(dict(astropy=__import__('astropy').__version__, numpy=np.__version__, cases=cases), f, indent=1)
