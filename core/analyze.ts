@@ -1,10 +1,9 @@
 import type { CfaPattern, Frame, Optics } from './frame/types.ts';
 import { resolveOptics, type UserOptics } from './frame/optics.ts';
 import { toMeasurePlane } from './frame/plane.ts';
-import { estimateSky, subtractSky } from './image/background.ts';
-import { detectStars } from './stars/detect.ts';
+import { detectStars, estimatePsfSigma, matchedFilterTaps } from './stars/detect.ts';
 import { packStamps } from './stars/stamps.ts';
-import { measureAll } from './stars/measure-pool.ts';
+import { WorkerPool, measureAll, parallelConvolve, parallelSky, parallelSubtract, sharedFloat32 } from './stars/measure-pool.ts';
 import type { Star, StarFlag } from './stars/types.ts';
 import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
@@ -71,40 +70,65 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
   const plane = toMeasurePlane(frame, { cfa });
   const optics = resolveOptics(frame.hints, opts.user ?? {}, plane.scale);
   checkFrameHasSignal(plane.data);
-  lap('plane');
-  progress('background', 0);
-  const sky = estimateSky(plane.data, plane.width, plane.height);
-  const { residual, missing } = subtractSky(plane.data, sky);
-  lap('background');
-  checkAbort(opts.signal);
-  progress('detect', 0);
-  const det = detectStars(residual, plane.data, missing, plane.width, plane.height, sky, {
-    threshold: opts.threshold,
-    saturationLevel: plane.saturationLevel,
-  });
-  lap('detect');
-  checkAbort(opts.signal);
-  if (det.candidates.length === 0) {
-    throw new SkyloupeError('no-stars', `no stars found above ${det.threshold} sigma (sky ${fmt(sky.globalLevel)} +/- ${fmt(sky.globalSigma)} ADU): cloudy, empty or heavily defocused frame?`);
+  // workers start now, so their start-up overlaps the serial steps
+  const pool = await WorkerPool.start(opts.workers);
+  try {
+    let data = plane.data;
+    if (pool.size > 0 && !(data.buffer instanceof SharedArrayBuffer)) {
+      data = sharedFloat32(data.length);
+      data.set(plane.data);
+    }
+    lap('plane');
+    progress('background', 0);
+    const sky = await parallelSky(pool, data, plane.width, plane.height);
+    const { residual, missing } = await parallelSubtract(pool, data, sky);
+    lap('background');
+    checkAbort(opts.signal);
+    progress('detect', 0);
+    const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky);
+    const filtered = await parallelConvolve(pool, residual, plane.width, plane.height, matchedFilterTaps(psfSigmaPx));
+    const det = detectStars(residual, data, missing, plane.width, plane.height, sky, {
+      threshold: opts.threshold,
+      saturationLevel: plane.saturationLevel,
+      psfSigmaPx,
+      filtered,
+    });
+    lap('detect');
+    checkAbort(opts.signal);
+    if (det.candidates.length === 0) {
+      throw new SkyloupeError('no-stars', `no stars found above ${det.threshold} sigma (sky ${fmt(sky.globalLevel)} +/- ${fmt(sky.globalSigma)} ADU): cloudy, empty or heavily defocused frame?`);
+    }
+    let candidates = det.candidates;
+    let subset: Analysis['detection']['subset'] = null;
+    const maxStars = opts.maxStars ?? 30000;
+    if (candidates.length > maxStars) {
+      candidates = [...candidates].sort((a, b) => b.significance - a.significance).slice(0, maxStars);
+      subset = { of: det.candidates.length, rule: `the ${maxStars} most significant detections` };
+    }
+    const gain = numberMeta(frame.meta, ['GAIN', 'EGAIN']);
+    const batch = packStamps(residual, missing, plane.width, plane.height, sky, candidates, det.stampRadius, det.psfSigmaPx, gain);
+    lap('stamps');
+    progress('measure', 0);
+    const measured = await measureAll(pool, batch, {
+      model: opts.model,
+      signal: opts.signal,
+      onProgress: (f) => progress('measure', f),
+    });
+    lap('measure');
+    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
+  } finally {
+    void pool.close();
   }
-  let candidates = det.candidates;
-  let subset: Analysis['detection']['subset'] = null;
-  const maxStars = opts.maxStars ?? 30000;
-  if (candidates.length > maxStars) {
-    candidates = [...candidates].sort((a, b) => b.significance - a.significance).slice(0, maxStars);
-    subset = { of: det.candidates.length, rule: `the ${maxStars} most significant detections` };
-  }
-  const gain = numberMeta(frame.meta, ['GAIN', 'EGAIN']);
-  const batch = packStamps(residual, missing, plane.width, plane.height, sky, candidates, det.stampRadius, det.psfSigmaPx, gain);
-  lap('stamps');
-  progress('measure', 0);
-  const measured = await measureAll(batch, {
-    workers: opts.workers,
-    model: opts.model,
-    signal: opts.signal,
-    onProgress: (f) => progress('measure', f),
-  });
-  lap('measure');
+}
+
+function finish(
+  frame: Frame, cfa: CfaPattern | null, optics: Optics,
+  plane: { width: number; height: number; scale: number; offset: number },
+  sky: { globalLevel: number; globalSigma: number; box: number },
+  det: { threshold: number; psfSigmaPx: number; candidates: readonly unknown[] },
+  subset: Analysis['detection']['subset'], measured: Star[],
+  timings: Record<string, number>, lap: (n: string) => void, progress: (stage: string, f: number) => void,
+): Analysis {
   const stars = finishStars(measured, plane.scale, plane.offset);
   const flagged: Partial<Record<StarFlag, number>> = {};
   for (const s of stars) for (const f of s.flags) flagged[f] = (flagged[f] ?? 0) + 1;

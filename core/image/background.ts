@@ -27,14 +27,23 @@ export interface BackgroundOptions {
   filter?: number;
 }
 
-export function estimateSky(data: Float32Array, width: number, height: number, opts: BackgroundOptions = {}): SkyModel {
+export interface MeshGeometry { box: number; meshW: number; meshH: number }
+
+export function meshGeometry(width: number, height: number, opts: BackgroundOptions = {}): MeshGeometry {
   const box = Math.max(8, Math.min(opts.box ?? 64, Math.max(8, Math.floor(Math.min(width, height) / 2))));
-  const meshW = Math.max(1, Math.round(width / box));
-  const meshH = Math.max(1, Math.round(height / box));
-  const meshLevel = new Float32Array(meshW * meshH).fill(NaN);
-  const meshSigma = new Float32Array(meshW * meshH).fill(NaN);
+  return { box, meshW: Math.max(1, Math.round(width / box)), meshH: Math.max(1, Math.round(height / box)) };
+}
+
+/**
+ * Clipped level and sigma of the boxes in mesh rows [my0, my1); NaN where a box is
+ * mostly missing. Mesh rows are independent, so worker threads can share the work.
+ */
+export function meshRowStats(data: Float32Array, width: number, height: number, g: MeshGeometry, my0: number, my1: number): { level: Float32Array; sigma: Float32Array } {
+  const { box, meshW, meshH } = g;
+  const level = new Float32Array((my1 - my0) * meshW).fill(NaN);
+  const sigma = new Float32Array((my1 - my0) * meshW).fill(NaN);
   const scratch = new Float32Array(box * box * 4 + 16);
-  for (let my = 0; my < meshH; my++) {
+  for (let my = my0; my < my1; my++) {
     const y0 = Math.floor((my * height) / meshH);
     const y1 = Math.floor(((my + 1) * height) / meshH);
     for (let mx = 0; mx < meshW; mx++) {
@@ -53,12 +62,24 @@ export function estimateSky(data: Float32Array, width: number, height: number, o
           if (v === v) scratch[n++] = v;
         }
       }
-      if (n < Math.max(8, seen * 0.3)) continue; // mostly missing: filled from neighbours below
+      if (n < Math.max(8, seen * 0.3)) continue; // mostly missing: filled from neighbours later
       const st = clippedStats(scratch, n);
-      meshLevel[my * meshW + mx] = st.level;
-      meshSigma[my * meshW + mx] = st.sigma;
+      level[(my - my0) * meshW + mx] = st.level;
+      sigma[(my - my0) * meshW + mx] = st.sigma;
     }
   }
+  return { level, sigma };
+}
+
+export function estimateSky(data: Float32Array, width: number, height: number, opts: BackgroundOptions = {}): SkyModel {
+  const g = meshGeometry(width, height, opts);
+  const { level, sigma } = meshRowStats(data, width, height, g, 0, g.meshH);
+  return skyFromMesh(width, height, g, level, sigma, opts);
+}
+
+/** Fill holes, median-filter the mesh, and summarise: the cheap, serial end of the sky model. */
+export function skyFromMesh(width: number, height: number, g: MeshGeometry, meshLevel: Float32Array, meshSigma: Float32Array, opts: BackgroundOptions = {}): SkyModel {
+  const { box, meshW, meshH } = g;
   fillMissing(meshLevel, meshW, meshH);
   fillMissing(meshSigma, meshW, meshH);
   const f = opts.filter ?? 3;
@@ -166,11 +187,26 @@ export function skyNoiseAt(model: SkyModel, x: number, y: number): number {
  * here, so filters see no hole; `missing` marks them for the edge test.
  */
 export function subtractSky(data: Float32Array, model: SkyModel): { residual: Float32Array; missing: Uint8Array | null } {
+  const out = new Float32Array(model.width * model.height);
+  const missing = subtractSkyRows(data, model, 0, model.height, out);
+  return { residual: out, missing };
+}
+
+/**
+ * Rows [y0, y1) of data - sky into `out` (the input is never changed). Missing pixels
+ * (NaN) become 0 there, so filters see no hole; the returned mask (full-frame layout,
+ * or null when none) marks them for the edge test.
+ */
+export function subtractSkyRows(data: Float32Array, model: SkyModel, y0: number, y1: number, out: Float32Array, missingOut?: Uint8Array): Uint8Array | null {
   const { width, height, meshW, meshH, meshLevel } = model;
-  const out = new Float32Array(width * height);
   let missing: Uint8Array | null = null;
+  const markMissing = (k: number) => {
+    if (!missing) missing = missingOut ?? new Uint8Array(width * height);
+    missing[k] = 1;
+  };
   const rowLevel = new Float32Array(meshW);
-  for (let y = 0; y < height; y++) {
+  const sx = meshW / width;
+  for (let y = y0; y < y1; y++) {
     // interpolate the mesh to this row once, then along x
     const fy = ((y + 0.5) * meshH) / height - 0.5;
     const iy = Math.max(0, Math.min(Math.floor(fy), meshH - 2));
@@ -178,7 +214,6 @@ export function subtractSky(data: Float32Array, model: SkyModel): { residual: Fl
     const ty = meshH > 1 ? fy - iy : 0;
     for (let i = 0; i < meshW; i++) rowLevel[i] = meshLevel[iy * meshW + i] * (1 - ty) + meshLevel[iy1 * meshW + i] * ty;
     const row = y * width;
-    const sx = meshW / width;
     for (let x = 0; x < width; x++) {
       const fx = (x + 0.5) * sx - 0.5;
       const ix = meshW > 1 ? Math.max(0, Math.min(Math.floor(fx), meshW - 2)) : 0;
@@ -188,10 +223,9 @@ export function subtractSky(data: Float32Array, model: SkyModel): { residual: Fl
       if (v === v) out[row + x] = v - lvl;
       else {
         out[row + x] = 0;
-        if (!missing) missing = new Uint8Array(width * height);
-        missing[row + x] = 1;
+        markMissing(row + x);
       }
     }
   }
-  return { residual: out, missing };
+  return missing;
 }

@@ -12,6 +12,13 @@ export interface DetectOptions {
   saturationLevel?: number | null;
   /** Measurement stamp radius (px); stars closer than this to a border are flagged 'edge'. */
   stampRadius?: number;
+  /** The residual already convolved with matchedFilterTaps(psfSigmaPx) (e.g. in parallel). */
+  filtered?: Float32Array;
+}
+
+/** The matched filter for a PSF of this sigma: a Gaussian of the same size. */
+export function matchedFilterTaps(psfSigmaPx: number): Float32Array {
+  return gaussianTaps(Math.max(0.6, psfSigmaPx));
 }
 
 export interface Detection {
@@ -43,8 +50,8 @@ export function detectStars(
   const psfSigmaPx = opts.psfSigmaPx ?? estimatePsfSigma(residual, width, height, sky);
   const fwhm = 2.354820045 * psfSigmaPx;
   const stampRadius = opts.stampRadius ?? Math.min(40, Math.max(6, Math.ceil(3 * fwhm) + 1));
-  const taps = gaussianTaps(Math.max(0.6, psfSigmaPx));
-  const filtered = convolveSeparable(residual, width, height, taps);
+  const taps = matchedFilterTaps(psfSigmaPx);
+  const filtered = opts.filtered ?? convolveSeparable(residual, width, height, taps);
   const nf = filteredNoiseFactor(taps);
   const peaks = localMaxima(filtered, width, height, sky, nf, threshold);
   const { kept, merged } = mergePeaks(peaks, filtered, width, height, Math.max(3, 4 * psfSigmaPx));
