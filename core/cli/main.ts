@@ -1,7 +1,7 @@
 import path from 'node:path';
 import { readFrame } from '../frame/read.ts';
 import { analyzeFrame } from '../analyze.ts';
-import { buildReport } from '../report/build.ts';
+import { reportFromAnalysis } from '../report/from-analysis.ts';
 import { starsCsv } from '../report/csv.ts';
 import { writeFileAtomic } from '../report/save.ts';
 import { SkyloupeError, exitCodeFor, usage } from '../errors.ts';
@@ -102,7 +102,7 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
   }
   const frame = await readFrame(framePath);
   const analysis = await analyzeFrame(frame, { user, cfa, threshold, workers });
-  const report = buildReport(analysis, framePath);
+  const report = reportFromAnalysis(analysis, framePath);
   if (report.detection.usedForField === 0) {
     throw new SkyloupeError('no-stars', `${analysis.detection.candidates} detections but no usable star (all flagged: ${Object.entries(report.detection.flagged).map(([k, v]) => `${v} ${k}`).join(', ')})`);
   }

@@ -1,4 +1,5 @@
 import type { Report, ZoneSummary } from '../report/types.ts';
+import { formatFindings } from '../diagnose/format.ts';
 
 const f = (v: number | null, digits = 2) => (v === null ? 'n/a' : v.toFixed(digits));
 
@@ -33,5 +34,9 @@ export function formatSummary(r: Report): string {
     lines.push(`corner/centre FWHM ratio ${(s.corners.medianFwhmPx / s.center.medianFwhmPx).toFixed(2)}`);
   }
   if (!plate) lines.push('tip: give --focal-length and --pixel-size to get arcseconds and micrometres');
+  if (r.findings && r.findings.length) {
+    lines.push('');
+    lines.push(formatFindings(r.findings as Parameters<typeof formatFindings>[0]));
+  }
   return lines.join('\n');
 }

@@ -27,6 +27,8 @@ export interface BackgroundOptions {
   filter?: number;
 }
 
+const QUANTUM_SIGMA = Math.sqrt(1 / 12);
+
 export interface MeshGeometry { box: number; meshW: number; meshH: number }
 
 export function meshGeometry(width: number, height: number, opts: BackgroundOptions = {}): MeshGeometry {
@@ -63,9 +65,13 @@ export function meshRowStats(data: Float32Array, width: number, height: number, 
         }
       }
       if (n < Math.max(8, seen * 0.3)) continue; // mostly missing: filled from neighbours later
+      let integral = true;
+      for (let i = 0; i < n && integral; i += 7) integral = scratch[i] === Math.round(scratch[i]);
       const st = clippedStats(scratch, n);
       level[(my - my0) * meshW + mx] = st.level;
-      sigma[(my - my0) * meshW + mx] = st.sigma;
+      // integer data whose sky sits on one code (an 8-bit frame clipped at black) still has
+      // the rounding noise of a unit step, sigma^2 = 1/12 (uniform quantisation, standard result)
+      sigma[(my - my0) * meshW + mx] = integral ? Math.max(st.sigma, QUANTUM_SIGMA) : st.sigma;
     }
   }
   return { level, sigma };

@@ -149,10 +149,14 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
   // Centre for HFD and as fallback position.
   const hx = momOk ? mom.x : fit ? fit.x : px;
   const hy = momOk ? mom.y : fit ? fit.y : py;
-  const maxR = Math.min(hx + 0.5, w - 0.5 - hx, hy + 0.5, h - 0.5 - hy);
+  // the curve of growth runs out to 4 FWHM of the fit (a Moffat of beta 2.5 keeps about
+  // 99 % of its flux inside, optics.md 1.1), not the whole stamp: less room for neighbours
+  const stampR = Math.min(hx + 0.5, w - 0.5 - hx, hy + 0.5, h - 0.5 - hy);
+  const fitFwhm = fit ? Math.sqrt(fit.fwhmMajorPx * fit.fwhmMinorPx) : NaN;
+  const maxR = Number.isFinite(fitFwhm) ? Math.min(stampR, Math.max(5, 4 * fitFwhm)) : stampR;
   // r50 guess: the Gaussian value 1.1774 sigma (optics.md §1.1) from the moments.
   const r50Guess = momOk ? 1.1774 * Math.sqrt(0.5 * (mom.ixx + mom.iyy)) : 1.1774 * sigmaGuess;
-  const hfd = halfFluxDiameterWithError(stamp, variance, w, h, hx, hy, maxR, r50Guess);
+  const hfd = halfFluxDiameterWithError(localSkySubtracted(stamp, w, h, hx, hy, maxR), variance, w, h, hx, hy, maxR, r50Guess);
   const hfdErr = hfd.errPx;
   const merr = momOk ? adaptiveMomentErrors(stamp, variance, w, h, mom) : { x: NaN, y: NaN, e1: NaN, e2: NaN };
 
@@ -282,6 +286,31 @@ function borderVariance(stamp: Float32Array, w: number, h: number): number {
   const dev = vals.map((v) => Math.abs(v - med)).sort((a, b) => a - b);
   const s = 1.4826 * dev[dev.length >> 1];
   return s > 0 ? s * s : 1;
+}
+
+/**
+ * The stamp less its local sky: the median of an outer ring (2 px wide) about the star.
+ * The mesh sky can be off near bright stars or in crowded fields, and any offset
+ * enters the curve of growth times the aperture area (common practice: a local
+ * annulus background for aperture photometry).
+ */
+function localSkySubtracted(stamp: Float32Array, w: number, h: number, x: number, y: number, rMax: number): Float32Array {
+  if (!(rMax > 6)) return stamp;
+  const r0 = (rMax - 2) * (rMax - 2);
+  const r1 = rMax * rMax;
+  const ring: number[] = [];
+  for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) {
+    const d = (i - x) * (i - x) + (j - y) * (j - y);
+    const v = stamp[j * w + i];
+    if (d >= r0 && d <= r1 && v === v) ring.push(v);
+  }
+  if (ring.length < 12) return stamp;
+  ring.sort((a, b) => a - b);
+  const sky = ring[ring.length >> 1];
+  if (!Number.isFinite(sky) || sky === 0) return stamp;
+  const out = new Float32Array(stamp.length);
+  for (let k = 0; k < stamp.length; k++) out[k] = stamp[k] - sky;
+  return out;
 }
 
 function emptyStar(flags: Set<StarFlag>, x: number, y: number, hfdPx = Number.NaN): Star {

@@ -95,8 +95,8 @@ const KNOWN: Record<string, string> = {
   'openstartracker feb16_2:ellipticity': 'trailed stars: e from a Gaussian fit vs isophotal moments; simulator (trail 14 px): truth 0.44 at half maximum, 0.355 in moments; skyloupe 0.376, SExtractor 0.359',
   'openstartracker feb16_2:fwhm': 'SExtractor FWHM_IMAGE (from the isophotal area) is not a half-maximum width for trailed stars: simulator 12.9 (SExtractor) and 10.2 (skyloupe) for a true geometric-mean half-maximum width of 10.7',
   'HST 47 Tuc:counts': 'crowded field: skyloupe flags 90 % of its detections as blended and its sky sigma is inflated (bug report in the note)',
-  'HST 47 Tuc:fwhm': 'only a few dozen stars remain clean in skyloupe, see counts',
-  'HST 47 Tuc:hfd': 'skyloupe HFD of the few clean crowded-field stars is wrong (median ~24 px vs 2.9 px): neighbours enter the curve of growth (bug report in the note)',
+  'HST 47 Tuc:fwhm': 'undersampled crowded field (FWHM ~2 px): 7 % apart; the simulator check for undersampled stars below finds SExtractor FWHM_IMAGE runs low there, skyloupe within 2.5 % of the truth',
+  'HST 47 Tuc:ellipticity': 'undersampled stars: skyloupe 0.18 vs 0.14; the simulator check below finds SExtractor underestimates ellipticity of undersampled stars (0.037 for a truth of 0.056) while skyloupe is within 0.004',
 };
 
 /**
