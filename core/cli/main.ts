@@ -10,21 +10,28 @@ import { formatSummary } from './summary.ts';
 import { simulateToFiles } from '../simulate/write.ts';
 import type { CfaPattern } from '../frame/types.ts';
 import { VERSION } from '../version.ts';
+import { runCompare, formatCompare, runSweep, formatSweep, runFocusPair, formatFocusPair } from '../series/index.ts';
+import type { Analysis } from '../analyze.ts';
 
 const HELP_MAIN = `skyloupe ${VERSION}: star shapes across the field of a night-sky frame
 
 usage: skyloupe COMMAND [options]
 
 commands:
-  analyze FRAME      measure every star and summarise the field
-  simulate SCENE OUT render a synthetic frame (OUT.fits) and its truth (OUT.truth.json)
+  analyze FRAME         measure every star, map the field, say what is wrong
+  compare A B           the same site and camera through two lenses or settings: per-zone verdicts
+  sweep --at MM=FRAME   frames at known spacer distances: the best spacing
+  focus-pair NEAR FAR   two frames a known focus step apart: the signed sensor tilt
+  simulate SCENE OUT    render a synthetic frame (OUT.fits) and its truth (OUT.truth.json)
+  serve                 the desktop program's page in a browser, on 127.0.0.1
 
 skyloupe COMMAND --help shows the options of a command.
 exit codes: 0 done, 2 bad usage, 3 unreadable input, 4 no usable stars`;
 
 const HELP_ANALYZE = `usage: skyloupe analyze FRAME [options]
 
-FRAME is a FITS (.fits, .fit, .fts), TIFF, PNG or JPEG file; it is only read.
+FRAME is a FITS file (also tile-compressed .fz and gzipped .fits.gz), a camera raw
+(CR2, CR3, NEF, ARW, RAF, ORF, DNG), TIFF, PNG or JPEG; it is only read.
 
 options:
   --json FILE|-         write the report (schema skyloupe.report/1) to FILE, or - for stdout
@@ -37,6 +44,38 @@ options:
   --workers N           worker threads for the per-star fits (default: all cores; 0 = none)
   --quiet               print nothing but errors
   -h, --help            this text`;
+
+const OPTICS_HELP = `  --focal-length MM     focal length (overrides the files' metadata)
+  --pixel-size UM       pixel pitch in micrometres, binning included (overrides)
+  --f-number N          working f-number (overrides)
+  --json FILE|-         write the result as JSON to FILE, or - for stdout
+  -h, --help            this text`;
+
+const HELP_COMPARE = `usage: skyloupe compare A B [options]
+
+Two frames of the same site and camera through two lenses or settings. Gives a verdict
+per zone (centre, edges, corners): which is sharper and rounder, and how sure.
+
+options:
+${OPTICS_HELP}`;
+
+const HELP_SWEEP = `usage: skyloupe sweep --at MM=FRAME --at MM=FRAME ... [options]
+
+Frames taken at known spacer distances (MM, e.g. --at 55.0=a.fits --at 55.5=b.fits).
+Fits the corner aberration against distance and gives the best spacing and its
+uncertainty. Refocus the centre the same way at every step.
+
+options:
+${OPTICS_HELP}`;
+
+const HELP_FOCUS_PAIR = `usage: skyloupe focus-pair NEAR FAR --step UM [options]
+
+Two frames a known focus step apart (UM, micrometres at the sensor, FAR minus NEAR)
+resolve which side of the sensor is too close: the signed defocus plane.
+
+options:
+  --step UM             the focus step between the two frames, micrometres
+${OPTICS_HELP}`;
 
 const HELP_SIMULATE = `usage: skyloupe simulate SCENE.json OUT.fits
 
@@ -52,7 +91,10 @@ export async function main(argv: string[]): Promise<number> {
     switch (cmd) {
       case 'analyze': return await analyzeCommand(rest, out);
       case 'simulate': return await simulateCommand(rest, out);
-      default: throw usage(`unknown command "${cmd}" (commands: analyze, simulate; see skyloupe --help)`);
+      case 'compare': return await compareCommand(rest, out);
+      case 'sweep': return await sweepCommand(rest, out);
+      case 'focus-pair': return await focusPairCommand(rest, out);
+      default: throw usage(`unknown command "${cmd}" (commands: analyze, compare, sweep, focus-pair, simulate, serve; see skyloupe --help)`);
     }
   } catch (err) {
     const code = exitCodeFor(err);
@@ -125,5 +167,76 @@ async function simulateCommand(argv: string[], out: (s: string) => void): Promis
   if (path.resolve(scene) === path.resolve(target)) throw usage('simulate: OUT.fits would overwrite the scene file');
   const { truthPath } = await simulateToFiles(scene, target);
   out(`wrote ${target} and ${truthPath}`);
+  return 0;
+}
+
+const OPTICS_OPTIONS = {
+  'focal-length': { type: 'string' },
+  'pixel-size': { type: 'string' },
+  'f-number': { type: 'string' },
+  json: { type: 'string' },
+} as const;
+
+function userOptics(values: Record<string, string | boolean | undefined>, command: string) {
+  return {
+    focalLengthMm: positiveNumber(values['focal-length'], 'focal-length', command),
+    pixelSizeUm: positiveNumber(values['pixel-size'], 'pixel-size', command),
+    fNumber: positiveNumber(values['f-number'], 'f-number', command),
+  };
+}
+
+/** Read and analyse several frames one after the other (each uses all cores). */
+async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>): Promise<Analysis[]> {
+  const out: Analysis[] = [];
+  for (const p of paths) out.push(await analyzeFrame(await readFrame(p), { user }));
+  return out;
+}
+
+async function emit(values: Record<string, string | boolean | undefined>, result: unknown, text: string, inputs: string[], out: (s: string) => void): Promise<void> {
+  const json = JSON.stringify(result, null, 1) + '\n';
+  if (typeof values.json === 'string' && values.json !== '-') {
+    if (inputs.some((p) => path.resolve(p) === path.resolve(values.json as string))) throw usage('--json would overwrite an input frame; choose another file');
+    await writeFileAtomic(values.json, json);
+  }
+  if (values.json === '-') process.stdout.write(json);
+  else out(text);
+}
+
+async function compareCommand(argv: string[], out: (s: string) => void): Promise<number> {
+  const { values, positionals } = parse(argv, { ...OPTICS_OPTIONS }, 'compare');
+  if (values.help) { out(HELP_COMPARE); return 0; }
+  if (positionals.length !== 2) throw usage('compare: give two frames, A and B (see skyloupe compare --help)');
+  const [a, b] = await analyzeAll(positionals, userOptics(values, 'compare'));
+  const r = runCompare(a, b, { A: positionals[0], B: positionals[1] });
+  await emit(values, r, formatCompare(r), positionals, out);
+  return 0;
+}
+
+async function sweepCommand(argv: string[], out: (s: string) => void): Promise<number> {
+  const { values, positionals } = parse(argv, { ...OPTICS_OPTIONS, at: { type: 'string', multiple: true } }, 'sweep');
+  if (values.help) { out(HELP_SWEEP); return 0; }
+  if (positionals.length) throw usage(`sweep: give frames as --at MM=FRAME, not "${positionals[0]}"`);
+  const at = (values.at as unknown as string[] | undefined) ?? [];
+  if (at.length < 3) throw usage('sweep: give at least three --at MM=FRAME (four or more are better)');
+  const items = at.map((spec) => {
+    const m = /^\s*([-+]?\d+(?:\.\d+)?)\s*=(.+)$/.exec(spec);
+    if (!m) throw usage(`sweep: --at needs MM=FRAME, got "${spec}"`);
+    return { spacingMm: Number(m[1]), file: m[2] };
+  });
+  const analyses = await analyzeAll(items.map((i) => i.file), userOptics(values, 'sweep'));
+  const r = runSweep(items.map((it, k) => ({ spacingMm: it.spacingMm, analysis: analyses[k], label: it.file })));
+  await emit(values, r, formatSweep(r), items.map((i) => i.file), out);
+  return 0;
+}
+
+async function focusPairCommand(argv: string[], out: (s: string) => void): Promise<number> {
+  const { values, positionals } = parse(argv, { ...OPTICS_OPTIONS, step: { type: 'string' } }, 'focus-pair');
+  if (values.help) { out(HELP_FOCUS_PAIR); return 0; }
+  if (positionals.length !== 2) throw usage('focus-pair: give two frames, NEAR and FAR (see skyloupe focus-pair --help)');
+  const step = values.step === undefined ? undefined : Number(values.step);
+  if (step === undefined || !Number.isFinite(step) || step === 0) throw usage('focus-pair: --step UM is needed: the focus step between the frames in micrometres (non-zero)');
+  const [near, far] = await analyzeAll(positionals, userOptics(values, 'focus-pair'));
+  const r = runFocusPair(near, far, step);
+  await emit(values, r, formatFocusPair(r), positionals, out);
   return 0;
 }
