@@ -3,5 +3,12 @@
 import { register } from 'tsx/esm/api';
 
 register();
-const { main } = await import('../core/cli/main.ts');
-process.exitCode = await main(process.argv.slice(2));
+const argv = process.argv.slice(2);
+if (argv[0] === 'serve') {
+  // browser mode of the desktop program (app/serve); core/ never imports app/
+  const { serveMain } = await import('../app/serve/main.ts');
+  process.exitCode = await serveMain(argv.slice(1));
+} else {
+  const { main } = await import('../core/cli/main.ts');
+  process.exitCode = await main(argv);
+}

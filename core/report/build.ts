@@ -30,14 +30,18 @@ function zoneSummary(zone: 'center' | 'corners', stars: Star[], plate: number | 
   const fwhm = med(stars.map((s) => s.fwhmPx));
   let e1 = 0;
   let e2 = 0;
-  for (const s of stars) { e1 += s.moments.e1; e2 += s.moments.e2; }
+  let n = 0;
+  for (const s of stars) {
+    if (!Number.isFinite(s.moments.e1) || !Number.isFinite(s.moments.e2)) continue;
+    e1 += s.moments.e1; e2 += s.moments.e2; n++;
+  }
   return {
     zone,
     stars: stars.length,
     medianFwhmPx: fwhm === null ? null : r4(fwhm),
     medianFwhmArcsec: fwhm !== null && plate !== null ? r4(fwhm * plate) : null,
     medianHfdPx: r4n(med(stars.map((s) => s.hfdPx))),
-    meanShapeE: stars.length ? r4(Math.hypot(e1, e2) / stars.length) : null,
+    meanShapeE: n ? r4(Math.hypot(e1, e2) / n) : null,
     medianEllipticity: r4n(med(stars.map((s) => s.ellipticity))),
   };
 }

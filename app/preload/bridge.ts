@@ -1,0 +1,118 @@
+/**
+ * The one typed bridge between the page and the engine. In the desktop program it is
+ * exposed by preload.ts (contextBridge + ipcRenderer); in browser mode the page builds the
+ * same interface over fetch (renderer/http-bridge.ts). Every payload is plain, structured-
+ * cloneable data; failures come back as values (an Error's fields do not survive IPC).
+ */
+import type { Report, ReportStar } from '../../core/report/types.ts';
+import type { Preview, Tile, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
+
+export type { ImageRef, Preview, Tile, TileName, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
+
+export const BRIDGE_VERSION = 1;
+
+export interface FrameFile {
+  /** File name only (for messages and the report); never a path to read. */
+  name: string;
+  bytes: ArrayBuffer;
+}
+
+export interface OpticsInput {
+  focalLengthMm?: number;
+  pixelSizeUm?: number;
+  fNumber?: number;
+}
+
+export type FailureKind = 'usage' | 'unreadable' | 'no-stars' | 'cancelled' | 'busy' | 'not-found' | 'internal';
+
+export type Outcome<T> = { ok: true; value: T } | { ok: false; kind: FailureKind; message: string };
+
+export interface Progress {
+  job: number;
+  /** read, background, detect, measure, field, images, done */
+  stage: string;
+  /** Fraction of the stage, and an overall estimate, 0..1. */
+  fraction: number;
+  overall: number;
+}
+
+export type OpticsField = 'focalLengthMm' | 'pixelSizeUm' | 'fNumber';
+
+export interface AnalysisResult {
+  id: string;
+  name: string;
+  /** Key under which entered optics are remembered (camera name, or the frame size when unnamed). */
+  camera: string;
+  /** Where the optics came from: the file, the form just now, or the values remembered for this camera. */
+  opticsFrom: 'file' | 'entered' | 'remembered' | 'none';
+  opticsMissing: OpticsField[];
+  report: Report;
+  preview: Preview;
+  tiles: Tile[];
+  elapsedMs: number;
+}
+
+/** Pixels around one star, storage order, null for missing; `flipY` as the preview. */
+export interface StampData {
+  index: number;
+  x0: number;
+  y0: number;
+  w: number;
+  h: number;
+  values: (number | null)[];
+  flipY: boolean;
+  star: ReportStar;
+}
+
+export type ExportKind = 'json' | 'csv' | 'html';
+
+export interface SavedFile {
+  /** false when the user dismissed the save dialog. */
+  saved: boolean;
+  filename: string;
+}
+
+export interface AppConfig {
+  mode: 'desktop' | 'browser';
+  version: string;
+  demoAvailable: boolean;
+  /** Open the demo frame as soon as the page is ready (npm start). */
+  openDemo: boolean;
+}
+
+/** Menu commands sent from the desktop program's menu to the page. */
+export type MenuCommand =
+  | 'open' | 'open-demo' | 'export-json' | 'export-csv' | 'export-html' | 'export-png'
+  | 'night' | 'cancel' | 'zoom-in' | 'zoom-out' | 'zoom-reset' | `view:${string}`;
+
+export interface SkyloupeBridge {
+  config(): Promise<AppConfig>;
+  analyze(file: FrameFile, optics?: OpticsInput): Promise<Outcome<AnalysisResult>>;
+  analyzeDemo(optics?: OpticsInput): Promise<Outcome<AnalysisResult>>;
+  onProgress(cb: (p: Progress) => void): () => void;
+  cancel(): Promise<void>;
+  stamp(id: string, starIndex: number): Promise<Outcome<StampData>>;
+  compare(idA: string, idB: string): Promise<Outcome<CompareResult>>;
+  sweep(points: { id: string; spacingMm: number }[]): Promise<Outcome<SweepResult>>;
+  exportReport(id: string, kind: ExportKind): Promise<Outcome<SavedFile>>;
+  savePng(filename: string, bytes: ArrayBuffer): Promise<Outcome<SavedFile>>;
+  /** Desktop: the native open dialog (null when dismissed). Browser mode: always null (the page uses a file input). */
+  openFileDialog(): Promise<FrameFile | null>;
+  onCommand(cb: (cmd: MenuCommand, file?: FrameFile) => void): () => void;
+}
+
+/** The IPC channel names (desktop) and HTTP routes (browser mode) share these names. */
+export const CHANNELS = {
+  config: 'skyloupe:config',
+  analyze: 'skyloupe:analyze',
+  analyzeDemo: 'skyloupe:analyze-demo',
+  progress: 'skyloupe:progress',
+  cancel: 'skyloupe:cancel',
+  stamp: 'skyloupe:stamp',
+  compare: 'skyloupe:compare',
+  sweep: 'skyloupe:sweep',
+  exportReport: 'skyloupe:export',
+  savePng: 'skyloupe:save-png',
+  openFileDialog: 'skyloupe:open-dialog',
+  command: 'skyloupe:command',
+} as const;

@@ -1,0 +1,80 @@
+/**
+ * The self-contained HTML report: the summary, the findings and the same SVG figures as the
+ * desktop program (core/report/svg), printable, with the full JSON report embedded as data.
+ * No scripts, no outside resources.
+ */
+import type { Report } from './types.ts';
+import type { Preview, Tile } from './svg/types.ts';
+import { PRINT, type Theme } from './svg/theme.ts';
+import { esc } from './svg/util.ts';
+import { skySvg } from './svg/sky.ts';
+import { shapeSvg } from './svg/shape.ts';
+import { sizeSvg } from './svg/size.ts';
+import { focusSvg } from './svg/focus.ts';
+import { cornersSvg } from './svg/corners.ts';
+import { findingsHtml, summaryHtml } from './svg/panels.ts';
+
+export interface HtmlReportOptions {
+  /** Display name of the frame (default: the report's path). */
+  name?: string;
+  /** The stretched frame and the corner crops, when the caller has them (the desktop program does). */
+  preview?: Preview | null;
+  tiles?: Tile[] | null;
+  theme?: Theme;
+}
+
+const CSS = `
+:root { color-scheme: light; }
+body { font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "DejaVu Sans", sans-serif; color: #111418; background: #fff; margin: 24px auto; max-width: 960px; padding: 0 16px; }
+h1 { font-size: 22px; margin: 0 0 4px; } h2 { font-size: 17px; margin: 28px 0 8px; border-bottom: 1px solid #c8ced6; padding-bottom: 4px; }
+.meta { color: #505a66; margin: 0 0 16px; }
+table { border-collapse: collapse; } th, td { text-align: left; padding: 3px 10px 3px 0; vertical-align: top; } th { color: #505a66; font-weight: 600; }
+.src { color: #505a66; font-size: 12px; }
+figure { margin: 12px 0 20px; break-inside: avoid; page-break-inside: avoid; } figure svg { max-width: 100%; height: auto; display: block; }
+figcaption { color: #505a66; font-size: 12px; margin-top: 4px; }
+ol.findings { padding-left: 20px; } .finding { margin: 0 0 12px; break-inside: avoid; }
+.finding .severity { font-weight: 700; } .severity-major .severity { color: #c92a2a; } .severity-minor .severity { color: #b35c00; } .severity-info .severity { color: #1c5d99; }
+.finding-message { margin: 2px 0 4px; } .finding-numbers th, .finding-numbers td { font-size: 12px; padding: 1px 10px 1px 0; }
+code { font-size: 12px; color: #505a66; }
+@media print { body { margin: 0; max-width: none; } h2 { break-after: avoid; } }
+`;
+
+/** The report JSON as a non-executed data block; "<" is escaped so the text cannot close the element. */
+function jsonBlock(report: Report): string {
+  return `<script type="application/json" id="skyloupe-report">${JSON.stringify(report).replace(/</g, '\\u003c')}</script>`;
+}
+
+export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string {
+  const theme = opts.theme ?? PRINT;
+  const name = opts.name ?? report.frame.path;
+  const fig = (svg: string, caption: string) => `<figure>${svg}<figcaption>${esc(caption)}</figcaption></figure>`;
+  const parts: string[] = [];
+  parts.push(`<h1>Star shapes across the field: ${esc(name)}</h1>`);
+  parts.push(`<p class="meta">skyloupe ${esc(report.tool.version)} · report ${esc(report.schema)} · made ${esc(report.createdAt)}</p>`);
+  parts.push('<h2>Summary</h2>' + summaryHtml(report));
+  parts.push('<h2>Findings</h2>' + findingsHtml(report.findings));
+  parts.push('<h2>Sky</h2>' + fig(skySvg(report, { theme, preview: opts.preview ?? null, width: 900 }), `Every measured star marked (clean stars solid, flagged stars dashed); ${report.frame.display.note}.`));
+  parts.push('<h2>Shape map</h2>' + fig(shapeSvg(report, { theme, width: 900 }), 'A line per zone: its length grows with the elongation a/b, its direction is the long axis of the stars there.'));
+  parts.push('<h2>Size maps</h2>'
+    + fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
+    + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
+    + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), 'Ellipticity 1 − b/a from the moment field, with contours.'));
+  parts.push('<h2>Focus plane</h2>' + fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
+  parts.push('<h2>Corners</h2>' + fig(cornersSvg(report, opts.tiles ?? null, { theme, width: 900 }), 'The four corners and the centre at one zoom; ellipses are twice the fitted FWHM.'));
+  return `<!doctype html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src data:; style-src 'unsafe-inline'">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<meta name="generator" content="skyloupe ${esc(report.tool.version)}">
+<title>skyloupe report: ${esc(name)}</title>
+<style>${CSS}</style>
+</head>
+<body>
+${parts.join('\n')}
+${jsonBlock(report)}
+</body>
+</html>
+`;
+}

@@ -1,0 +1,12 @@
+/** The figures: pure functions from plain data to SVG (or HTML) strings, no DOM. */
+export * from './types.ts';
+export * from './theme.ts';
+export { esc, num, pm, fieldOf, diagnosisOf, frameMap, elongationFromDistortion, elongationFromEllipticity } from './util.ts';
+export { skySvg, markedStars } from './sky.ts';
+export { shapeSvg, shapeVectors } from './shape.ts';
+export { sizeSvg, heatGrid, heatUnavailable, ellipticityFromDistortion, finiteRange, QUANTITY_LABEL, type SizeQuantity } from './size.ts';
+export { focusSvg, planeGradient } from './focus.ts';
+export { cornersSvg, tileStats, starsInTile } from './corners.ts';
+export { stampSvg } from './stamp.ts';
+export { findingsHtml, findingsSvg, summaryHtml, numberLabel } from './panels.ts';
+export { compareTableHtml, sweepSvg } from './series.ts';
