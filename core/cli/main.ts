@@ -3,6 +3,7 @@ import { readFrame } from '../frame/read.ts';
 import { analyzeFrame } from '../analyze.ts';
 import { reportFromAnalysis } from '../report/from-analysis.ts';
 import { starsCsv } from '../report/csv.ts';
+import { reportHtml } from '../report/html.ts';
 import { writeFileAtomic } from '../report/save.ts';
 import { SkyloupeError, exitCodeFor, usage } from '../errors.ts';
 import { parse, positiveNumber } from './args.ts';
@@ -36,6 +37,7 @@ FRAME is a FITS file (also tile-compressed .fz and gzipped .fits.gz), a camera r
 options:
   --json FILE|-         write the report (schema skyloupe.report/1) to FILE, or - for stdout
   --csv FILE            write the star table as CSV
+  --html FILE           write a self-contained, printable HTML report with the figures
   --focal-length MM     focal length (overrides the file's metadata)
   --pixel-size UM       pixel pitch in micrometres, binning included (overrides)
   --f-number N          working f-number (overrides)
@@ -109,6 +111,7 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
   const { values, positionals } = parse(argv, {
     json: { type: 'string' },
     csv: { type: 'string' },
+    html: { type: 'string' },
     'focal-length': { type: 'string' },
     'pixel-size': { type: 'string' },
     'f-number': { type: 'string' },
@@ -137,7 +140,7 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
     workers = Number(values.workers);
     if (!Number.isInteger(workers) || workers < 0 || workers > 64) throw usage(`analyze: --workers needs a whole number from 0 to 64, got "${values.workers}"`);
   }
-  for (const [opt, target] of [['json', values.json], ['csv', values.csv]] as const) {
+  for (const [opt, target] of [['json', values.json], ['csv', values.csv], ['html', values.html]] as const) {
     if (typeof target === 'string' && target !== '-' && path.resolve(target) === path.resolve(framePath)) {
       throw usage(`analyze: --${opt} would overwrite the input frame; choose another file`);
     }
@@ -155,6 +158,7 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
     if (values.csv === '-') process.stdout.write(starsCsv(report));
     else await writeFileAtomic(values.csv, starsCsv(report));
   }
+  if (typeof values.html === 'string') await writeFileAtomic(values.html, reportHtml(report, { name: path.basename(framePath) }));
   if (!values.quiet && values.json !== '-' && values.csv !== '-') out(formatSummary(report));
   return 0;
 }
