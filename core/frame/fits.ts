@@ -352,7 +352,8 @@ export function decodeFits(bytes: Uint8Array): Frame {
     tiledAll = decodeTiledImage(bytes, keys, image.dataOffset, image.dataBytes, image.tiled, { bzero, bscale, blank: bitpix > 0 ? blank : null });
     data = extra === 1 ? tiledAll : tiledAll.slice(0, n);
   } else {
-    data = new Float32Array(n);
+    // on shared memory, so the pipeline's worker threads read the frame without a copy
+    data = new Float32Array(new SharedArrayBuffer(n * 4));
     decodeSamples(bytes, image.dataOffset, n, bitpix, bzero, bscale, blank, data);
   }
   const plane = (k: number, tmp: Float32Array): Float32Array => {
