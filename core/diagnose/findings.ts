@@ -1,0 +1,167 @@
+/** Findings: one plain-language line per fault, with severity, the numbers behind it, and the action. */
+import type { Geometry } from '../field/geometry.ts';
+import type { Units } from './context.ts';
+import type { Diagnosis, Finding } from './types.ts';
+import type { FieldMap } from '../field/types.ts';
+import { axisWords, fmt, fmtErr } from './words.ts';
+
+/** Corner-to-centre size ratio above which corners count as clearly soft ("good corners" <= 1.2, optics.md 7, common practice). */
+const MAJOR_RATIO = 1.2;
+/** Corner elongation (distortion e) above which stars look visibly oval (A/B ~ 1.1, optics.md 7, common practice). */
+const MAJOR_E = 0.1;
+
+/** Spacer step to try: +-0.5 mm at f/5, scaling with depth of focus as N^2 (optics.md 5, a common-practice heuristic). */
+export function spacingStepMm(N: number | null): number {
+  if (N === null) return 0.5;
+  const s = 0.5 * (N / 5) ** 2;
+  return Math.min(1, Math.max(0.1, Math.round(s * 20) / 20));
+}
+
+const sev = (major: boolean): 'major' | 'minor' => (major ? 'major' : 'minor');
+
+export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMap): Finding[] {
+  const out: Finding[] = [];
+  if (!d.coverage.adequate && d.starsUsed >= 30) {
+    out.push({
+      code: 'POOR_COVERAGE', severity: 'info',
+      message: `The stars cover only ${d.coverage.zonesWithStars} of the 9 zones of the frame (${d.coverage.cornersWithStars} of 4 corners): tilt, spacing, coma and curvature cannot be judged across the field. Use a frame with stars in every part (a richer field or a longer exposure).`,
+      numbers: { zonesWithStars: d.coverage.zonesWithStars, cornersWithStars: d.coverage.cornersWithStars },
+    });
+  }
+  const t = d.tilt;
+  const sigma = (s: number) => `${fmt(s, 1)} sigma`;
+  if (d.starsUsed < 30) {
+    out.push({ code: 'FEW_STARS', severity: 'info', message: `Only ${d.starsUsed} clean stars: too few for a reliable field diagnosis; use a longer exposure or a richer field.`, numbers: { starsUsed: d.starsUsed } });
+  }
+  if (d.trailing.significant && d.trailing.kind === 'uniform') {
+    const tr = d.trailing;
+    out.push({
+      code: 'TRAILING', severity: sev((tr.elongation ?? 0) >= MAJOR_E),
+      message: `Trailing: stars are stretched the same way across the whole frame, along ${fmt(tr.angleDeg, 0)} deg (+-${fmtErr(tr.angleErrDeg)}), about ${fmt(tr.lengthPx, 1)} px (+-${fmtErr(tr.lengthErrPx)}) long (${sigma(tr.significance)}). This is tracking, guiding, wind or vibration, not the optics: check guiding, balance, polar alignment and exposure length. If the direction turns by 90 deg when you defocus slightly, it is on-axis astigmatism instead.`,
+      numbers: { angleDeg: tr.angleDeg, angleErrDeg: tr.angleErrDeg, elongation: tr.elongation, lengthPx: tr.lengthPx, lengthErrPx: tr.lengthErrPx, significance: tr.significance },
+    });
+  }
+  if (d.trailing.significant && d.trailing.kind === 'rotation' && d.trailing.rotation) {
+    const r = d.trailing.rotation;
+    const where = r.centerPx ? `a centre at x ${fmt(r.centerPx.x, 0)}, y ${fmt(r.centerPx.y, 0)} px` : 'a centre outside the frame';
+    out.push({
+      code: 'FIELD_ROTATION', severity: sev((d.trailing.lengthPx ?? 0) >= 2),
+      message: `Field rotation: stars trail in arcs around ${where}, turning about ${fmt(r.angleDeg, 3)} deg during the exposure (trails up to ${fmt(d.trailing.lengthPx, 1)} px at the far corner; ${sigma(d.trailing.significance)}). Not an optical fault: improve the polar alignment (alt-az mounts need a derotator) or shorten the exposures.`,
+      numbers: { rotationDeg: r.angleDeg, rotationErrDeg: r.angleErrDeg, centerX: r.centerPx?.x ?? null, centerY: r.centerPx?.y ?? null, lengthPx: d.trailing.lengthPx },
+    });
+  }
+  if (t.significant) {
+    const worst = [...t.corners].sort((a, b) => b.blurDiameterPx - a.blurDiameterPx);
+    const best = worst[worst.length - 1];
+    const across = u.micrometres
+      ? `focus changes by about ${fmt(Math.hypot(t.acrossFrameUm.x ?? 0, t.acrossFrameUm.y ?? 0), 0)} um across the frame diagonal (${fmt(t.acrossFrameUm.x, 0)} +- ${fmtErr(t.acrossFrameErrUm.x)} um across the width, ${fmt(t.acrossFrameUm.y, 0)} +- ${fmtErr(t.acrossFrameErrUm.y)} um across the height)`
+      : `the defocus blur changes by ${fmt(t.acrossFrameBlurPx.x, 1)} px across the width and ${fmt(t.acrossFrameBlurPx.y, 1)} px across the height (micrometres need the f-number and pixel size)`;
+    const shim = t.tiltMrad !== null ? ` A shim of about ${fmt(t.tiltMrad, 2)} um per mm of ring diameter corrects it (e.g. ${fmt(t.tiltMrad * 50, 0)} um on a 50 mm ring).` : '';
+    out.push({
+      code: 'TILT',
+      severity: sev((t.worstCornerRatio ?? 1) >= MAJOR_RATIO),
+      message: `Sensor tilt: ${across}, steepest along ${fmt(t.axisDeg, 0)} deg +- ${fmtErr(t.axisErrDeg)} (${axisWords(g, t.axisDeg ?? 0)}; ${sigma(t.significance)}). Softest corner ${worst[0].name} (blur ${fmt(worst[0].blurDiameterPx, 1)} px), sharpest ${best.name} (${fmt(best.blurDiameterPx, 1)} px). One frame cannot tell which side is too close to the lens: take two frames a known focus step apart and run skyloupe focus-pair to find the side to shim.${shim}`,
+      numbers: {
+        acrossWidthUm: t.acrossFrameUm.x, acrossHeightUm: t.acrossFrameUm.y, acrossWidthErrUm: t.acrossFrameErrUm.x, acrossHeightErrUm: t.acrossFrameErrUm.y,
+        acrossWidthBlurPx: t.acrossFrameBlurPx.x, acrossHeightBlurPx: t.acrossFrameBlurPx.y,
+        axisDeg: t.axisDeg, axisErrDeg: t.axisErrDeg, tiltMrad: t.tiltMrad, significance: t.significance, worstCorner: worst[0].name,
+      },
+    });
+  }
+  const sp = d.spacing;
+  if (sp.significant) {
+    const shape = sp.pattern === 'radial' ? 'radially (long axes pointing at the centre)' : 'tangentially (long axes across the radius, circling the centre)';
+    const step = spacingStepMm(u.fNumber);
+    const as0 = d.astigmatism;
+    const astigWords = as0.lineSeparationUm
+      ? ` Read as astigmatism, the corner foci are ${fmt(as0.lineSeparationUm.low, 0)} to ${fmt(as0.lineSeparationUm.high, 0)} um apart (one frame cannot tell which).`
+      : as0.lineSeparationPx
+        ? ` Read as astigmatism, the corner line images are ${fmt(as0.lineSeparationPx.low, 1)} to ${fmt(as0.lineSeparationPx.high, 1)} px long.`
+        : '';
+    const major = Math.abs(sp.cornerERadial ?? 0) >= MAJOR_E || (sp.cornerToCentreSize ?? 1) >= MAJOR_RATIO;
+    out.push({
+      code: 'SPACING',
+      severity: sev(major),
+      message: `Corner stars are stretched ${shape}, alike in all corners (corner elongation ${fmt(Math.abs(sp.cornerERadial ?? 0), 3)} +- ${fmtErr(sp.cornerERadialErr)}, ${sigma(sp.significance)}; corners ${fmt(sp.cornerToCentreSize, 2)}x the centre size). With a flattener, reducer or coma corrector this is the sign of a wrong spacing to the sensor; with a bare lens it is the lens's own field astigmatism.${astigWords} Which way to move depends on the corrector design (a radial or tangential pattern does not say "too close" or "too far" in general): change the spacing in steps of about ${fmt(step, 2)} mm, take a frame at each, and run skyloupe sweep, which finds the spacing where the pattern changes sign.`,
+      numbers: { pattern: sp.pattern, radMinusTanPx2: sp.radMinusTanPx2, radMinusTanErrPx2: sp.radMinusTanErrPx2, cornerERadial: sp.cornerERadial, cornerToCentreSize: sp.cornerToCentreSize, stepMm: step, significance: sp.significance },
+    });
+  }
+  const as = d.astigmatism;
+  if (as.significant && as.decentred && as.centerPx) {
+    out.push({
+      code: 'ASTIGMATISM_DECENTRED', severity: 'minor',
+      message: `The elongation pattern is centred at x ${fmt(as.centerPx.x, 0)}, y ${fmt(as.centerPx.y, 0)} px, away from the frame centre: a tilted or decentred element or adapter rather than the design; check the collimation and the lens or corrector seating.`,
+      numbers: { centerX: as.centerPx.x, centerY: as.centerPx.y, centerErrX: as.centerErrPx?.x ?? null, centerErrY: as.centerErrPx?.y ?? null },
+    });
+  }
+  const cu = d.curvature;
+  if (cu.significant) {
+    const um = cu.cornerDefocusUm !== null ? `the corners sit about ${fmt(cu.cornerDefocusUm, 0)} +- ${fmtErr(cu.cornerDefocusErrUm)} um out of focus when the centre is sharp` : `the corners carry about ${fmt(cu.cornerBlurPx, 1)} px of defocus blur`;
+    out.push({
+      code: 'FIELD_CURVATURE',
+      severity: sev((cu.roundGrowthRatio ?? 1) >= MAJOR_RATIO),
+      message: `Field curvature: stars stay round but grow toward all corners alike (${fmt(cu.roundGrowthRatio, 2)}x the centre size, ${sigma(cu.significance)}); ${um}${cu.radiusMm ? ` (focal surface radius about ${fmt(cu.radiusMm, 0)} mm)` : ''}. With a flattener, check its spacing (skyloupe sweep); with a bare lens, focus about a third of the way out from the centre for a better balance, or stop down. Astigmatism balanced at its medial focus looks the same in one frame.`,
+      numbers: { cornerDefocusUm: cu.cornerDefocusUm, cornerDefocusErrUm: cu.cornerDefocusErrUm, cornerBlurPx: cu.cornerBlurPx, roundGrowthRatio: cu.roundGrowthRatio, radiusMm: cu.radiusMm, significance: cu.significance },
+    });
+  }
+  const co = d.coma;
+  if (co.significant && co.tail !== 'none') {
+    const why = co.tail === 'outward'
+      ? 'Typical of a fast reflector without a (well-spaced) coma corrector, and of fast camera lenses: with a corrector, check its spacing; with a lens, stopping down helps (coma shrinks as 1/N^2).'
+      : 'Flares pointing inward mean over-correction: with a coma corrector, check its spacing.';
+    const where = co.centerPx
+      ? (co.decentred
+        ? ` The coma-free point is at x ${fmt(co.centerPx.x, 0)}, y ${fmt(co.centerPx.y, 0)} px, ${fmt((co.centreOffsetFraction ?? 0) * 100, 0)} % of the diagonal from the frame centre: collimate the optics (or check for a decentred element).`
+        : ` The coma-free point is near the frame centre (x ${fmt(co.centerPx.x, 0)} +- ${fmtErr(co.centerErrPx?.x)}, y ${fmt(co.centerPx.y, 0)} +- ${fmtErr(co.centerErrPx?.y)} px), so collimation looks fine.`)
+      : '';
+    out.push({
+      code: 'COMA', severity: sev((co.cornerComaRatio ?? 0) >= 0.5),
+      message: `Coma: star flares point ${co.tail} and grow toward the edges (coma flare about ${fmt(co.cornerComaPx, 1)} +- ${fmtErr(co.gradientErrPx)} px at the corners, ${fmt((co.cornerComaRatio ?? 0) * 100, 0)} % of the star size; ${sigma(co.significance)}). ${why}${where}`,
+      numbers: { tail: co.tail, cornerComaPx: co.cornerComaPx, cornerComaRatio: co.cornerComaRatio, gradientPx: co.gradientPx, gradientErrPx: co.gradientErrPx, centerX: co.centerPx?.x ?? null, centerY: co.centerPx?.y ?? null, centreOffsetFraction: co.centreOffsetFraction, significance: co.significance },
+    });
+  } else if (co.significant && co.uniform) {
+    out.push({
+      code: 'COMA_UNIFORM', severity: 'minor',
+      message: `The same coma flare in every part of the frame, centre included (about ${fmt(Math.hypot(co.uniform.x, co.uniform.y), 1)} +- ${fmtErr(co.uniform.err)} px): this is collimation or a decentred element, not field coma; collimate the optics.`,
+      numbers: { x: co.uniform.x, y: co.uniform.y, err: co.uniform.err },
+    });
+  }
+  const optical = t.significant || sp.significant || cu.significant || co.significant;
+  const sd = d.stopDown;
+  if (optical && sd.available && sd.predictions.length) {
+    const p = sd.predictions.slice(0, 2).map((q) => `f/${q.fNumber}: corners ~${fmt(q.cornerFwhmPx, 1)} px, centre ~${fmt(q.centreFwhmPx, 1)} px`).join('; ');
+    const stopAt = sd.worthwhileTo !== null && sd.fNumber !== null && sd.worthwhileTo > sd.fNumber
+      ? `Stopping down pays up to about f/${sd.worthwhileTo}; beyond it each stop gains less than 10 % for twice the exposure.`
+      : 'Stopping down gains less than 10 % per stop here (each stop doubles the exposure).';
+    out.push({
+      code: 'STOP_DOWN', severity: 'info',
+      message: `Stopping down (from f/${fmt(sd.fNumber, 1)}): ${p}. ${stopAt}`,
+      numbers: { fNumber: sd.fNumber, worthwhileTo: sd.worthwhileTo, nextFNumber: sd.predictions[0].fNumber, nextCornerFwhmPx: sd.predictions[0].cornerFwhmPx, nextCentreFwhmPx: sd.predictions[0].centreFwhmPx, relativeErr: sd.relativeErr },
+    });
+  }
+  if (!u.micrometres && optical) {
+    out.push({ code: 'OPTICS_UNKNOWN', severity: 'info', message: `${capital(u.why ?? '')}.`, numbers: { fNumber: u.fNumber, pixelSizeUm: u.pixelSizeUm } });
+  }
+  if (!out.some((f) => f.severity !== 'info') && d.starsUsed >= 30 && d.coverage.adequate) {
+    // The measured corner-to-centre FWHM ratio (zone medians), not a model extrapolation.
+    const zones = map?.zones.cells ?? [];
+    const c = zones.find((z) => z.zone === 'center')?.fwhmPx ?? null;
+    const k = zones.filter((z) => z.zone === 'corners' && z.fwhmPx !== null && z.n >= 3).map((z) => z.fwhmPx as number);
+    const ratio = c && k.length ? k.reduce((s, v) => s + v, 0) / k.length / c : null;
+    const t = d.tilt;
+    const bound = t.supported && t.acrossFrameUm.x !== null
+      ? `; tilt below about ${fmt(Math.hypot(t.acrossFrameUm.x ?? 0, t.acrossFrameUm.y ?? 0) + 2 * Math.hypot(t.acrossFrameErrUm.x ?? 0, t.acrossFrameErrUm.y ?? 0), 0)} um across the frame`
+      : '';
+    out.push({
+      code: 'CLEAN', severity: 'info',
+      message: `No significant optical or tracking fault: from ${d.starsUsed} stars, tilt, corner elongation, coma, curvature and trailing are all within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}.`,
+      numbers: { starsUsed: d.starsUsed, cornerToCentreFwhm: ratio },
+    });
+  }
+  const order = { major: 0, minor: 1, info: 2 } as const;
+  return out.sort((a, b) => order[a.severity] - order[b.severity]);
+}
+
+function capital(s: string): string {
+  return s ? s[0].toUpperCase() + s.slice(1) : s;
+}
