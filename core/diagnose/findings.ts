@@ -111,7 +111,7 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
       : 'Flares pointing inward mean over-correction: with a coma corrector, check its spacing.';
     const where = co.centerPx
       ? (co.decentred
-        ? ` The coma-free point is at x ${fmt(co.centerPx.x, 0)}, y ${fmt(co.centerPx.y, 0)} px, ${fmt((co.centreOffsetFraction ?? 0) * 100, 0)} % of the diagonal from the frame centre: collimate the optics (or check for a decentred element).`
+        ? ` The coma-free point is at x ${fmt(co.centerPx.x, 0)}, y ${fmt(co.centerPx.y, 0)} px, ${fmt((co.centreOffsetFraction ?? 0) * 100, 0)} % of the diagonal from the frame centre: collimate the optics (or check for a decentred element; with a laser collimator, never look into the beam).`
         : ` The coma-free point is near the frame centre (x ${fmt(co.centerPx.x, 0)} +- ${fmtErr(co.centerErrPx?.x)}, y ${fmt(co.centerPx.y, 0)} +- ${fmtErr(co.centerErrPx?.y)} px), so collimation looks fine.`)
       : '';
     out.push({
@@ -122,7 +122,7 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
   } else if (co.significant && co.uniform) {
     out.push({
       code: 'COMA_UNIFORM', severity: 'minor',
-      message: `The same coma flare in every part of the frame, centre included (about ${fmt(Math.hypot(co.uniform.x, co.uniform.y), 1)} +- ${fmtErr(co.uniform.err)} px): this is collimation or a decentred element, not field coma; collimate the optics.`,
+      message: `The same coma flare in every part of the frame, centre included (about ${fmt(Math.hypot(co.uniform.x, co.uniform.y), 1)} +- ${fmtErr(co.uniform.err)} px): this is collimation or a decentred element, not field coma; collimate the optics (with a laser collimator, never look into the beam).`,
       numbers: { x: co.uniform.x, y: co.uniform.y, err: co.uniform.err },
     });
   }

@@ -1,6 +1,6 @@
-/** Normalised 1-D Gaussian taps for sigma (px), radius ceil(3 sigma). */
-export function gaussianTaps(sigma: number): Float32Array {
-  const r = Math.max(1, Math.ceil(3 * sigma));
+/** Normalised 1-D Gaussian taps for sigma (px), radius ceil(nSigma * sigma). */
+export function gaussianTaps(sigma: number, nSigma = 3): Float32Array {
+  const r = Math.max(1, Math.ceil(nSigma * sigma));
   const taps = new Float32Array(2 * r + 1);
   let s = 0;
   for (let i = -r; i <= r; i++) {
@@ -31,46 +31,67 @@ export function convolveBand(src: Float32Array, width: number, height: number, t
   const ya = Math.max(0, y0 - r);
   const yb = Math.min(height, y1 + r);
   const tmp = new Float32Array((yb - ya) * width);
-  const nt = taps.length;
-  // x pass over the rows the band needs
+  // taps as doubles, and the border weights: inside the frame the weights sum to 1
+  const t = Float64Array.from(taps);
+  const acc = new Float64Array(width);
+  const wx = borderWeights(t, width);
+  // x pass, one tap at a time over the whole row: sequential access, symmetric taps paired
   for (let y = ya; y < yb; y++) {
     const row = y * width;
-    const trow = (y - ya) * width;
-    for (let x = 0; x < width; x++) {
-      let s = 0;
-      if (x >= r && x < width - r) {
-        const base = row + x - r;
-        for (let k = 0; k < nt; k++) s += taps[k] * src[base + k];
-      } else {
-        let wsum = 0;
-        for (let k = -r; k <= r; k++) {
-          const xx = x + k;
-          if (xx < 0 || xx >= width) continue;
-          s += taps[k + r] * src[row + xx];
-          wsum += taps[k + r];
-        }
-        s /= wsum;
-      }
-      tmp[trow + x] = s;
+    const t0 = t[r];
+    for (let x = 0; x < width; x++) acc[x] = t0 * src[row + x];
+    for (let k = 1; k <= r; k++) {
+      const tk = t[r + k];
+      // both neighbours in one pass where both exist; the borders take the one that does
+      const lo = Math.min(k, width);
+      const hi = Math.max(lo, width - k);
+      for (let x = lo; x < hi; x++) acc[x] += tk * (src[row + x - k] + src[row + x + k]);
+      for (let x = 0; x < lo; x++) if (x + k < width) acc[x] += tk * src[row + x + k];
+      for (let x = hi; x < width; x++) if (x - k >= 0) acc[x] += tk * src[row + x - k];
     }
+    const trow = (y - ya) * width;
+    for (let x = 0; x < width; x++) tmp[trow + x] = acc[x] / wx[x];
   }
   // y pass, row-wise accumulation keeps memory access sequential
-  const acc = new Float64Array(width);
   for (let y = y0; y < y1; y++) {
-    acc.fill(0);
-    let wsum = 0;
-    for (let k = -r; k <= r; k++) {
-      const yy = y + k;
-      if (yy < 0 || yy >= height) continue;
-      const t = taps[k + r];
-      wsum += t;
-      const trow = (yy - ya) * width;
-      for (let x = 0; x < width; x++) acc[x] += t * tmp[trow + x];
+    const c = (y - ya) * width;
+    const t0 = t[r];
+    for (let x = 0; x < width; x++) acc[x] = t0 * tmp[c + x];
+    let wsum = t0;
+    for (let k = 1; k <= r; k++) {
+      const tk = t[r + k];
+      const up = y - k >= 0;
+      const down = y + k < height;
+      const a = (y - k - ya) * width;
+      const b = (y + k - ya) * width;
+      if (up && down) {
+        for (let x = 0; x < width; x++) acc[x] += tk * (tmp[a + x] + tmp[b + x]);
+        wsum += 2 * tk;
+      } else if (up) {
+        for (let x = 0; x < width; x++) acc[x] += tk * tmp[a + x];
+        wsum += tk;
+      } else if (down) {
+        for (let x = 0; x < width; x++) acc[x] += tk * tmp[b + x];
+        wsum += tk;
+      }
     }
     const inv = 1 / wsum;
     const row = y * width;
     for (let x = 0; x < width; x++) out[row + x] = acc[x] * inv;
   }
+}
+
+/** Sum of the taps that fall inside a row of this width, per output x (1 away from the borders). */
+function borderWeights(t: Float64Array, width: number): Float64Array {
+  const r = (t.length - 1) >> 1;
+  const w = new Float64Array(width);
+  for (let x = 0; x < width; x++) {
+    if (x >= r && x < width - r) { w[x] = 1; continue; }
+    let s = 0;
+    for (let k = -r; k <= r; k++) if (x + k >= 0 && x + k < width) s += t[k + r];
+    w[x] = s;
+  }
+  return w;
 }
 
 /** Noise sigma after filtering white noise of unit sigma with the 2-D separable kernel: the L2 norm of the kernel. */

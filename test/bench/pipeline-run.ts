@@ -3,6 +3,7 @@
 import { readFrame } from '../../core/frame/read.ts';
 import { analyzeFrame } from '../../core/analyze.ts';
 import { buildReport } from '../../core/report/build.ts';
+import { diagnose } from '../../core/diagnose/index.ts';
 
 const file = process.argv[2];
 const t0 = performance.now();
@@ -14,11 +15,17 @@ const report = buildReport(analysis, file);
 const json = JSON.stringify(report);
 const tReport = (performance.now() - t1) / 1000;
 const total = (performance.now() - t0) / 1000;
+// the diagnosis (field map and faults) comes on top of the measurement
+const t2 = performance.now();
+const d = diagnose(analysis.stars, { width: analysis.frame.width, height: analysis.frame.height, optics: analysis.optics });
+const tDiagnose = (performance.now() - t2) / 1000;
+void d;
 process.stdout.write(JSON.stringify({
   read: tRead,
   ...analysis.timings,
   report: tReport,
   total,
+  diagnose: tDiagnose,
   stars: report.detection.measured,
   usable: report.detection.usedForField,
   jsonBytes: json.length,

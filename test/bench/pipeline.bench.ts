@@ -49,6 +49,6 @@ for (const s of sizes) {
     .map((k) => `${k} ${Number(r[k] ?? 0).toFixed(3)}`).join(', ');
   process.stdout.write(
     `${s.width}x${s.height} (${(s.width * s.height / 1e6).toFixed(1)} MP, ${r.stars} stars measured, ${r.usable} usable): ` +
-    `total ${r.total.toFixed(2)} s, peak RSS ${r.peakRssMB.toFixed(0)} MB\n  stages (s): ${stages}\n`,
+    `read to report ${r.total.toFixed(2)} s, peak RSS ${r.peakRssMB.toFixed(0)} MB\n  stages (s): ${stages}\n  diagnosis on top: ${r.diagnose.toFixed(2)} s\n`,
   );
 }
