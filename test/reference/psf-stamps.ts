@@ -5,17 +5,8 @@
  * seeded Gaussian and Poisson noise.
  */
 
-/** mulberry32 (Tommy Ettinger, public domain): small seeded 32-bit PRNG, uniform in [0, 1). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** mulberry32, uniform in [0, 1): the one seeded PRNG of the tests. */
+export { mulberry32 as rng } from '../helpers/rng.ts';
 
 /** Standard normal deviate by Box-Muller. */
 export function gauss(u: () => number): number {

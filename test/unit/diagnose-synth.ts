@@ -1,3 +1,4 @@
+import { mulberry32 as rand32 } from '../helpers/rng.ts';
 /**
  * Synthetic Star arrays from analytic moment models, independent of the code under test.
  * Physics (optics.md): second moments add under convolution (sections 1.1 and 4):
@@ -63,16 +64,7 @@ export function optics(s: { fNumber: number | null; pixelSizeUm: number | null; 
   };
 }
 
-export function rand32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+export { mulberry32 as rand32 } from '../helpers/rng.ts';
 
 function normal(r: () => number): number {
   return Math.sqrt(-2 * Math.log(Math.max(1e-300, r()))) * Math.cos(2 * Math.PI * r());
