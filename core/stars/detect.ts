@@ -60,16 +60,21 @@ export function detectStars(
   const peaks = localMaxima(filtered, width, height, sky, nf, threshold);
   const { kept, merged } = mergePeaks(peaks, filtered, width, height, Math.max(3, 4 * psfSigmaPx));
   const candidates = flagCandidates(kept, residual, raw, missing, width, height, psfSigmaPx, stampRadius, opts.saturationLevel ?? null);
+  flagStreaks(candidates, kept, filtered, width, height, psfSigmaPx, stampRadius, threshold * nf * minMeshSigma(sky));
   return { candidates, psfSigmaPx, threshold, stampRadius, merged };
 }
 
 interface Peak { x: number; y: number; value: number; significance: number }
 
-function localMaxima(f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number): Peak[] {
+function minMeshSigma(sky: SkyModel): number {
   let minSigma = Infinity;
   for (let i = 0; i < sky.meshSigma.length; i++) if (sky.meshSigma[i] < minSigma) minSigma = sky.meshSigma[i];
   if (!(minSigma > 0)) minSigma = sky.globalSigma > 0 ? sky.globalSigma : 1e-12;
-  const floor = threshold * minSigma * nf;
+  return minSigma;
+}
+
+function localMaxima(f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number): Peak[] {
+  const floor = threshold * minMeshSigma(sky) * nf;
   const peaks: Peak[] = [];
   for (let y = 1; y < height - 1; y++) {
     const row = y * width;
@@ -207,6 +212,155 @@ function flagCandidates(
     out.push({ x: px, y: py, significance: p.significance, peak, flags });
   }
   return out;
+}
+
+/**
+ * Detections on a long straight feature get 'streak'. Two tests, both far beyond any PSF:
+ * (1) a continuous trail (satellite, meteor): the filtered image stays above the detection
+ * threshold, within a factor 2, along one axis at d to 3 d on both sides, d = 4 FWHM + 8 px,
+ * while across it, at d and 2 d, it is below a quarter of the lowest. A star's own filtered
+ * profile (sigma sqrt 2 sigma_psf) is down to exp(-(d / 2 sigma)^2) < 2 % of its peak there,
+ * and a round halo or a diffuse glow fails the across test. Detections whose stamp the line
+ * crosses are flagged with it;
+ * (2) a dotted line (aircraft strobes): at least CHAIN detections of similar filtered value,
+ * each the same step on from the last (within 1.5 px), which chance alignments in a dense
+ * field rarely give (each extra link at a star density n has a chance of about 7 n).
+ */
+const CHAIN = 6;
+const ALONG = [-3, -2.5, -2, -1.5, -1, 1, 1.5, 2, 2.5, 3];
+
+function flagStreaks(cands: Candidate[], peaks: Peak[], f: Float32Array, width: number, height: number, psfSigma: number, R: number, floor: number): void {
+  const fwhm = 2.354820045 * psfSigma;
+  const d = 4 * fwhm + 8;
+  const at = (x: number, y: number) => {
+    const xi = Math.round(x);
+    const yi = Math.round(y);
+    return xi < 0 || yi < 0 || xi >= width || yi >= height ? NaN : f[yi * width + xi];  // NaN: outside
+  };
+  const streak = new Uint8Array(cands.length);
+  const angle = new Float64Array(cands.length).fill(NaN); // trail direction, rad
+  // angle steps fine enough that the farthest sample stays within 1 px of the line
+  const ANGLES = Math.ceil((Math.PI * 3 * d) / 2);
+  for (let i = 0; i < peaks.length; i++) {
+    const p = peaks[i];
+    for (let k = 0; k < ANGLES; k++) {
+      const a = (k * Math.PI) / ANGLES;
+      const c = Math.cos(a);
+      const s = Math.sin(a);
+      // a trail runs off the frame: samples outside it do not count against, but at least
+      // one full side lies inside
+      let along = true;
+      let inside = 0;
+      let low = Infinity;
+      let high = 0;
+      for (const t of ALONG) {
+        const v = at(p.x + t * d * c, p.y + t * d * s);
+        if (v !== v) continue;
+        inside++;
+        if (!(v >= floor)) { along = false; break; }
+        if (v < low) low = v;
+        if (v > high) high = v;
+      }
+      // a trail is nearly uniform; chance hits on stars in a crowded field are not
+      if (!along || inside < ALONG.length / 2 || high > 2 * low) continue;
+      // across: low on both sides at d and 2 d (NaN outside the frame counts as low)
+      let across = true;
+      for (const t of [-2 * d, -d, d, 2 * d]) if (at(p.x - t * s, p.y + t * c) >= 0.25 * low) { across = false; break; }
+      if (across) { streak[i] = 1; angle[i] = a; break; }
+    }
+  }
+  const maxStep = 12 * fwhm + 20;
+  const cell = Math.max(8, Math.ceil(maxStep));
+  const gw = Math.ceil(width / cell);
+  const grid = new Map<number, number[]>();
+  peaks.forEach((p, i) => {
+    const key = Math.floor(p.y / cell) * gw + Math.floor(p.x / cell);
+    const l = grid.get(key);
+    if (l) l.push(i); else grid.set(key, [i]);
+  });
+  // a star whose stamp the trail crosses (within R of the line through a trail detection, no
+  // farther along it than the 3 d the ridge was checked over) has the trail's light in it;
+  // a detection right on the line carries the line on (a faint trail's ridge test fails here
+  // and there, and near the frame border)
+  const reach = 3 * d;
+  const cells = Math.ceil(reach / cell);
+  const queue: number[] = [];
+  for (let i = 0; i < peaks.length; i++) if (angle[i] === angle[i]) queue.push(i);
+  for (let qi = 0; qi < queue.length; qi++) {
+    const j = queue[qi];
+    const q = peaks[j];
+    const cs = Math.cos(angle[j]);
+    const sn = Math.sin(angle[j]);
+    const gx = Math.floor(q.x / cell);
+    const gy = Math.floor(q.y / cell);
+    for (let dy = -cells; dy <= cells; dy++) for (let dx = -cells; dx <= cells; dx++) {
+      for (const i of grid.get((gy + dy) * gw + gx + dx) ?? []) {
+        if (streak[i]) continue;
+        const p = peaks[i];
+        const across = Math.abs(-(p.x - q.x) * sn + (p.y - q.y) * cs);
+        if (across > R || Math.hypot(p.x - q.x, p.y - q.y) > reach) continue;
+        streak[i] = 1;
+        if (across <= fwhm) { angle[i] = angle[j]; queue.push(i); }
+      }
+    }
+  }
+  // dotted lines
+  const tol = 1.5;
+  const nearest = (x: number, y: number, ref: number): number => {
+    const gx = Math.floor(x / cell);
+    const gy = Math.floor(y / cell);
+    let best = -1;
+    let bd = tol;
+    for (let dy = -1; dy <= 1; dy++) for (let dx = -1; dx <= 1; dx++) {
+      for (const j of grid.get((gy + dy) * gw + gx + dx) ?? []) {
+        const q = peaks[j];
+        const r = q.value / ref;
+        if (r < 1 / 3 || r > 3) continue;
+        const dd = Math.hypot(q.x - x, q.y - y);
+        if (dd <= bd) { bd = dd; best = j; }
+      }
+    }
+    return best;
+  };
+  const chain: number[] = [];
+  for (let i = 0; i < peaks.length; i++) {
+    const p = peaks[i];
+    const gx = Math.floor(p.x / cell);
+    const gy = Math.floor(p.y / cell);
+    for (let dy = -1; dy <= 1; dy++) for (let dx = -1; dx <= 1; dx++) {
+      for (const j of grid.get((gy + dy) * gw + gx + dx) ?? []) {
+        const q = peaks[j];
+        // each line is walked once, from its end with the smaller (y, x)
+        if (q.y < p.y || (q.y === p.y && q.x <= p.x)) continue;
+        const sx = q.x - p.x;
+        const sy = q.y - p.y;
+        const step = Math.hypot(sx, sy);
+        if (step < 2 * fwhm || step > maxStep) continue;
+        const r = q.value / p.value;
+        if (r < 1 / 3 || r > 3) continue;
+        // p must be the first link: nothing one step before it
+        if (nearest(p.x - sx, p.y - sy, p.value) >= 0) continue;
+        chain.length = 0;
+        chain.push(i, j);
+        let vx = sx;
+        let vy = sy;
+        while (true) {
+          const last = peaks[chain[chain.length - 1]];
+          const nxt = nearest(last.x + vx, last.y + vy, last.value);
+          if (nxt < 0) break;
+          chain.push(nxt);
+          const n = chain.length - 1;
+          vx = (peaks[nxt].x - p.x) / n;
+          vy = (peaks[nxt].y - p.y) / n;
+          if (chain.length > 10000) break;
+        }
+        if (chain.length >= CHAIN) for (const k of chain) streak[k] = 1;
+      }
+    }
+  }
+  for (let i = 0; i < cands.length; i++) {
+    if (streak[i] && !cands[i].flags.includes('streak')) (cands[i].flags as StarFlag[]).push('streak');
+  }
 }
 
 function anyMissing(m: Uint8Array, width: number, height: number, x: number, y: number, r: number): boolean {

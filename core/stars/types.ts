@@ -6,7 +6,8 @@ export type StarFlag =
   | 'cosmic-ray'  // sharp multi-pixel hit, narrower than the PSF
   | 'blended'     // another source within the fitting stamp
   | 'fit-failed'  // no converged PSF fit
-  | 'low-snr';    // below the measurement SNR threshold
+  | 'low-snr'     // below the measurement SNR threshold
+  | 'streak';     // on a long line: satellite or meteor trail, aircraft lights
 
 /** A detection candidate from the matched filter, in measured-plane pixels. */
 export interface Candidate {
