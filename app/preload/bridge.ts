@@ -6,6 +6,7 @@
  */
 import type { Report, ReportStar } from '../../core/report/types.ts';
 import type { Preview, Tile, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
+import type { StampInput } from '../../core/report/svg/stamp.ts';
 
 export type { ImageRef, Preview, Tile, TileName, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
 
@@ -52,16 +53,9 @@ export interface AnalysisResult {
   elapsedMs: number;
 }
 
-/** Pixels around one star, storage order, null for missing; `flipY` as the preview. */
-export interface StampData {
+/** Pixels around one star, storage order, null for missing; `flipY` as the preview: what the stamp figure draws, plus the star's index. */
+export interface StampData extends StampInput {
   index: number;
-  x0: number;
-  y0: number;
-  w: number;
-  h: number;
-  values: (number | null)[];
-  flipY: boolean;
-  star: ReportStar;
 }
 
 export type ExportKind = 'json' | 'csv' | 'html';

@@ -162,14 +162,7 @@ function flagCandidates(
   const hotRatio = Math.min(0.1, 0.35 * starRatio);
   const satLevel = saturation !== null ? 0.995 * saturation : Infinity;
   const out: Candidate[] = [];
-  const cell = Math.max(8, Math.ceil(R));
-  const gw = Math.ceil(width / cell);
-  const grid = new Map<number, number[]>();
-  peaks.forEach((p, i) => {
-    const key = Math.floor(p.y / cell) * gw + Math.floor(p.x / cell);
-    const l = grid.get(key);
-    if (l) l.push(i); else grid.set(key, [i]);
-  });
+  const grid = new PointGrid(peaks, Math.max(8, Math.ceil(R)), width);
   for (let i = 0; i < peaks.length; i++) {
     const p = peaks[i];
     const flags: StarFlag[] = [];
@@ -191,22 +184,16 @@ function flagCandidates(
       if (n4 < hotRatio * peak) flags.push('hot-pixel');
     }
     // blended: a neighbour close enough and bright enough to bias the moments or the fit
-    const gx = Math.floor(p.x / cell);
-    const gy = Math.floor(p.y / cell);
     let blended = false;
-    for (let dy = -1; dy <= 1 && !blended; dy++) for (let dx = -1; dx <= 1 && !blended; dx++) {
-      const l = grid.get((gy + dy) * gw + gx + dx);
-      if (!l) continue;
-      for (const j of l) {
-        if (j === i) continue;
-        const q = peaks[j];
-        // the neighbour's light at this star's centre, relative to this star's peak, for a
-        // profile twice the PSF sigma wide (room for Moffat wings): over 2 % biases the fit
-        const d = Math.hypot(q.x - p.x, q.y - p.y);
-        const ratio = q.value / p.value;
-        const spill = ratio * Math.exp((-d * d) / (8 * psfSigma * psfSigma));
-        if (spill > 0.02 || (d < R && ratio > 3)) { blended = true; break; }
-      }
+    for (const j of grid.around(p.x, p.y)) {
+      if (j === i) continue;
+      const q = peaks[j];
+      // the neighbour's light at this star's centre, relative to this star's peak, for a
+      // profile twice the PSF sigma wide (room for Moffat wings): over 2 % biases the fit
+      const d = Math.hypot(q.x - p.x, q.y - p.y);
+      const ratio = q.value / p.value;
+      const spill = ratio * Math.exp((-d * d) / (8 * psfSigma * psfSigma));
+      if (spill > 0.02 || (d < R && ratio > 3)) { blended = true; break; }
     }
     if (blended) flags.push('blended');
     out.push({ x: px, y: py, significance: p.significance, peak, flags });
@@ -271,13 +258,7 @@ function flagStreaks(cands: Candidate[], peaks: Peak[], f: Float32Array, width: 
   }
   const maxStep = 12 * fwhm + 20;
   const cell = Math.max(8, Math.ceil(maxStep));
-  const gw = Math.ceil(width / cell);
-  const grid = new Map<number, number[]>();
-  peaks.forEach((p, i) => {
-    const key = Math.floor(p.y / cell) * gw + Math.floor(p.x / cell);
-    const l = grid.get(key);
-    if (l) l.push(i); else grid.set(key, [i]);
-  });
+  const grid = new PointGrid(peaks, cell, width);
   // a star whose stamp the trail crosses (within R of the line through a trail detection, no
   // farther along it than the 3 d the ridge was checked over) has the trail's light in it;
   // a detection right on the line carries the line on (a faint trail's ridge test fails here
@@ -291,75 +272,93 @@ function flagStreaks(cands: Candidate[], peaks: Peak[], f: Float32Array, width: 
     const q = peaks[j];
     const cs = Math.cos(angle[j]);
     const sn = Math.sin(angle[j]);
-    const gx = Math.floor(q.x / cell);
-    const gy = Math.floor(q.y / cell);
-    for (let dy = -cells; dy <= cells; dy++) for (let dx = -cells; dx <= cells; dx++) {
-      for (const i of grid.get((gy + dy) * gw + gx + dx) ?? []) {
-        if (streak[i]) continue;
-        const p = peaks[i];
-        const across = Math.abs(-(p.x - q.x) * sn + (p.y - q.y) * cs);
-        if (across > R || Math.hypot(p.x - q.x, p.y - q.y) > reach) continue;
-        streak[i] = 1;
-        if (across <= fwhm) { angle[i] = angle[j]; queue.push(i); }
-      }
+    for (const i of grid.around(q.x, q.y, cells)) {
+      if (streak[i]) continue;
+      const p = peaks[i];
+      const across = Math.abs(-(p.x - q.x) * sn + (p.y - q.y) * cs);
+      if (across > R || Math.hypot(p.x - q.x, p.y - q.y) > reach) continue;
+      streak[i] = 1;
+      if (across <= fwhm) { angle[i] = angle[j]; queue.push(i); }
     }
   }
   // dotted lines
   const tol = 1.5;
   const nearest = (x: number, y: number, ref: number): number => {
-    const gx = Math.floor(x / cell);
-    const gy = Math.floor(y / cell);
     let best = -1;
     let bd = tol;
-    for (let dy = -1; dy <= 1; dy++) for (let dx = -1; dx <= 1; dx++) {
-      for (const j of grid.get((gy + dy) * gw + gx + dx) ?? []) {
-        const q = peaks[j];
-        const r = q.value / ref;
-        if (r < 1 / 3 || r > 3) continue;
-        const dd = Math.hypot(q.x - x, q.y - y);
-        if (dd <= bd) { bd = dd; best = j; }
-      }
+    for (const j of grid.around(x, y)) {
+      const q = peaks[j];
+      const r = q.value / ref;
+      if (r < 1 / 3 || r > 3) continue;
+      const dd = Math.hypot(q.x - x, q.y - y);
+      if (dd <= bd) { bd = dd; best = j; }
     }
     return best;
   };
   const chain: number[] = [];
   for (let i = 0; i < peaks.length; i++) {
     const p = peaks[i];
-    const gx = Math.floor(p.x / cell);
-    const gy = Math.floor(p.y / cell);
-    for (let dy = -1; dy <= 1; dy++) for (let dx = -1; dx <= 1; dx++) {
-      for (const j of grid.get((gy + dy) * gw + gx + dx) ?? []) {
-        const q = peaks[j];
-        // each line is walked once, from its end with the smaller (y, x)
-        if (q.y < p.y || (q.y === p.y && q.x <= p.x)) continue;
-        const sx = q.x - p.x;
-        const sy = q.y - p.y;
-        const step = Math.hypot(sx, sy);
-        if (step < 2 * fwhm || step > maxStep) continue;
-        const r = q.value / p.value;
-        if (r < 1 / 3 || r > 3) continue;
-        // p must be the first link: nothing one step before it
-        if (nearest(p.x - sx, p.y - sy, p.value) >= 0) continue;
-        chain.length = 0;
-        chain.push(i, j);
-        let vx = sx;
-        let vy = sy;
-        while (true) {
-          const last = peaks[chain[chain.length - 1]];
-          const nxt = nearest(last.x + vx, last.y + vy, last.value);
-          if (nxt < 0) break;
-          chain.push(nxt);
-          const n = chain.length - 1;
-          vx = (peaks[nxt].x - p.x) / n;
-          vy = (peaks[nxt].y - p.y) / n;
-          if (chain.length > 10000) break;
-        }
-        if (chain.length >= CHAIN) for (const k of chain) streak[k] = 1;
+    for (const j of grid.around(p.x, p.y)) {
+      const q = peaks[j];
+      // each line is walked once, from its end with the smaller (y, x)
+      if (q.y < p.y || (q.y === p.y && q.x <= p.x)) continue;
+      const sx = q.x - p.x;
+      const sy = q.y - p.y;
+      const step = Math.hypot(sx, sy);
+      if (step < 2 * fwhm || step > maxStep) continue;
+      const r = q.value / p.value;
+      if (r < 1 / 3 || r > 3) continue;
+      // p must be the first link: nothing one step before it
+      if (nearest(p.x - sx, p.y - sy, p.value) >= 0) continue;
+      chain.length = 0;
+      chain.push(i, j);
+      let vx = sx;
+      let vy = sy;
+      while (true) {
+        const last = peaks[chain[chain.length - 1]];
+        const nxt = nearest(last.x + vx, last.y + vy, last.value);
+        if (nxt < 0) break;
+        chain.push(nxt);
+        const n = chain.length - 1;
+        vx = (peaks[nxt].x - p.x) / n;
+        vy = (peaks[nxt].y - p.y) / n;
+        if (chain.length > 10000) break;
       }
+      if (chain.length >= CHAIN) for (const k of chain) streak[k] = 1;
     }
   }
   for (let i = 0; i < cands.length; i++) {
     if (streak[i] && !cands[i].flags.includes('streak')) (cands[i].flags as StarFlag[]).push('streak');
+  }
+}
+
+/** Indices of points bucketed in square cells, for neighbour look-ups without an all-pairs scan. */
+class PointGrid {
+  private readonly map = new Map<number, number[]>();
+  private readonly gw: number;
+  constructor(points: readonly { x: number; y: number }[], readonly cell: number, width: number) {
+    this.gw = Math.ceil(width / cell);
+    points.forEach((p, i) => {
+      const k = this.key(Math.floor(p.x / cell), Math.floor(p.y / cell));
+      const l = this.map.get(k);
+      if (l) l.push(i); else this.map.set(k, [i]);
+    });
+  }
+
+  private key(gx: number, gy: number): number {
+    return gy * this.gw + gx;
+  }
+
+  /** Indices in the cells within `cells` of the cell holding (x, y). */
+  around(x: number, y: number, cells = 1): number[] {
+    const gx = Math.floor(x / this.cell);
+    const gy = Math.floor(y / this.cell);
+    const out: number[] = [];
+    for (let dy = -cells; dy <= cells; dy++) for (let dx = -cells; dx <= cells; dx++) {
+      const l = this.map.get(this.key(gx + dx, gy + dy));
+      if (l) for (const i of l) out.push(i);
+    }
+    return out;
   }
 }
 
