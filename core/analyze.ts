@@ -81,12 +81,15 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('plane');
     progress('background', 0);
     const sky = await parallelSky(pool, data, plane.width, plane.height);
+    lap('sky');
     const { residual, missing } = await parallelSubtract(pool, data, sky);
-    lap('background');
+    lap('subtract');
     checkAbort(opts.signal);
     progress('detect', 0);
     const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky);
+    lap('psf-size');
     const filtered = await parallelConvolve(pool, residual, plane.width, plane.height, matchedFilterTaps(psfSigmaPx));
+    lap('filter');
     const det = detectStars(residual, data, missing, plane.width, plane.height, sky, {
       threshold: opts.threshold,
       saturationLevel: plane.saturationLevel,

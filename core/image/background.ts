@@ -211,12 +211,18 @@ export function subtractSky(data: Float32Array, model: SkyModel): { residual: Fl
 export function subtractSkyRows(data: Float32Array, model: SkyModel, y0: number, y1: number, out: Float32Array, missingOut?: Uint8Array): Uint8Array | null {
   const { width, height, meshW, meshH, meshLevel } = model;
   let missing: Uint8Array | null = null;
-  const markMissing = (k: number) => {
-    if (!missing) missing = missingOut ?? new Uint8Array(width * height);
-    missing[k] = 1;
-  };
-  const rowLevel = new Float32Array(meshW);
+  const rowLevel = new Float64Array(meshW);
+  // the x interpolation is the same on every row: cell index and weight per column, once
   const sx = meshW / width;
+  const ixOf = new Int32Array(width);
+  const txOf = new Float64Array(width);
+  for (let x = 0; x < width; x++) {
+    const fx = (x + 0.5) * sx - 0.5;
+    const ix = meshW > 1 ? Math.max(0, Math.min(Math.floor(fx), meshW - 2)) : 0;
+    ixOf[x] = ix;
+    txOf[x] = meshW > 1 ? fx - ix : 0;
+  }
+  const lvl = new Float64Array(width);
   for (let y = y0; y < y1; y++) {
     // interpolate the mesh to this row once, then along x
     const fy = ((y + 0.5) * meshH) / height - 0.5;
@@ -224,17 +230,20 @@ export function subtractSkyRows(data: Float32Array, model: SkyModel, y0: number,
     const iy1 = meshH > 1 ? iy + 1 : iy;
     const ty = meshH > 1 ? fy - iy : 0;
     for (let i = 0; i < meshW; i++) rowLevel[i] = meshLevel[iy * meshW + i] * (1 - ty) + meshLevel[iy1 * meshW + i] * ty;
+    if (meshW > 1) {
+      for (let x = 0; x < width; x++) {
+        const ix = ixOf[x];
+        lvl[x] = rowLevel[ix] + (rowLevel[ix + 1] - rowLevel[ix]) * txOf[x];
+      }
+    } else lvl.fill(rowLevel[0]);
     const row = y * width;
     for (let x = 0; x < width; x++) {
-      const fx = (x + 0.5) * sx - 0.5;
-      const ix = meshW > 1 ? Math.max(0, Math.min(Math.floor(fx), meshW - 2)) : 0;
-      const tx = meshW > 1 ? fx - ix : 0;
-      const lvl = meshW > 1 ? rowLevel[ix] + (rowLevel[ix + 1] - rowLevel[ix]) * tx : rowLevel[0];
       const v = data[row + x];
-      if (v === v) out[row + x] = v - lvl;
+      if (v === v) out[row + x] = v - lvl[x];
       else {
         out[row + x] = 0;
-        markMissing(row + x);
+        if (!missing) missing = missingOut ?? new Uint8Array(width * height);
+        missing[row + x] = 1;
       }
     }
   }

@@ -63,13 +63,13 @@ let INF = new Float32Array(0);
  * that fits in the stamp.
  */
 export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
-  const flags = new Set<StarFlag>(input.flags);
-  if (input.saturated) flags.add('saturated');
+  const flags: StarFlag[] = [...input.flags];
+  if (input.saturated) addFlag(flags, 'saturated');
   const { w, h } = input;
   let stamp = input.stamp;
   const ox = input.originX, oy = input.originY;
   if (!(Number.isInteger(w) && Number.isInteger(h) && w >= 3 && h >= 3) || !(stamp instanceof Float32Array) || stamp.length < w * h) {
-    flags.add('fit-failed');
+    addFlag(flags, 'fit-failed');
     return emptyStar(flags, ox + (w - 1) / 2, oy + (h - 1) / 2);
   }
   const n = w * h;
@@ -86,9 +86,9 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
     for (let i = 0; i < n; i++) c[i] = Number.isFinite(stamp[i]) ? stamp[i] : NaN;
     stamp = c;
   }
-  if (finite < n) flags.add('edge');
+  if (finite < n) addFlag(flags, 'edge');
   if (finite < 12) {
-    flags.add('fit-failed');
+    addFlag(flags, 'fit-failed');
     return emptyStar(flags, ox + (w - 1) / 2, oy + (h - 1) / 2);
   }
 
@@ -144,7 +144,7 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
     fit = (chi2G - chi2M) / fM.chi2Reduced > F_MOFFAT ? fM : fG;
   } else if (gOk) fit = fitG;
   else if (mOk) fit = fitM;
-  if (!fit) flags.add('fit-failed');
+  if (!fit) addFlag(flags, 'fit-failed');
 
   // Centre for HFD and as fallback position.
   const hx = momOk ? mom.x : fit ? fit.x : px;
@@ -181,7 +181,7 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
       thetaDeg: fit.thetaDeg,
       hfdPx: hfd.hfdPx,
       coma,
-      flags: [],
+      flags,
       model: fit.model,
       moffatBeta: fit.beta,
       moments,
@@ -215,7 +215,7 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
       thetaDeg: el.thetaDeg,
       hfdPx: hfd.hfdPx,
       coma,
-      flags: [],
+      flags,
       model: 'moments',
       moffatBeta: null,
       moments,
@@ -224,8 +224,9 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
   } else {
     return emptyStar(flags, ox + px, oy + py, hfd.hfdPx);
   }
-  if (!(snr >= (opts?.minSnr ?? 10))) flags.add('low-snr');
-  return { ...star, flags: [...flags] };
+  // the star holds `flags` itself, so a late flag lands in it
+  if (!(snr >= (opts?.minSnr ?? 10))) addFlag(flags, 'low-snr');
+  return star;
 }
 
 /** Fit start from a Gaussian fit: the covariance whose half-maximum contour is the fit's, its amplitude and background. */
@@ -313,12 +314,17 @@ function localSkySubtracted(stamp: Float32Array, w: number, h: number, x: number
   return out;
 }
 
-function emptyStar(flags: Set<StarFlag>, x: number, y: number, hfdPx = Number.NaN): Star {
+/** Adds f once (a plain array: a Set here made the optimised code bail out on every new call site). */
+function addFlag(flags: StarFlag[], f: StarFlag): void {
+  if (!flags.includes(f)) flags.push(f);
+}
+
+function emptyStar(flags: StarFlag[], x: number, y: number, hfdPx = Number.NaN): Star {
   const nan = Number.NaN;
-  flags.add('fit-failed');
+  addFlag(flags, 'fit-failed');
   return {
     x, y, flux: nan, snr: nan, fwhmPx: nan, fwhmMajorPx: nan, fwhmMinorPx: nan, ellipticity: nan, thetaDeg: nan,
-    hfdPx, coma: { x: nan, y: nan }, flags: [...flags], model: 'moments', moffatBeta: null,
+    hfdPx, coma: { x: nan, y: nan }, flags, model: 'moments', moffatBeta: null,
     moments: { ixx: nan, iyy: nan, ixy: nan, e1: nan, e2: nan },
     err: { x: nan, y: nan, fwhmPx: nan, ellipticity: nan, thetaDeg: nan, hfdPx: nan, e1: nan, e2: nan },
   };

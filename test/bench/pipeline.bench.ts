@@ -45,7 +45,7 @@ for (const s of sizes) {
     continue;
   }
   const r = JSON.parse(run.stdout.trim().split('\n').pop()!);
-  const stages = ['read', 'plane', 'background', 'detect', 'stamps', 'measure', 'finish', 'report']
+  const stages = ['read', 'plane', 'sky', 'subtract', 'psf-size', 'filter', 'detect', 'stamps', 'measure', 'finish', 'report']
     .map((k) => `${k} ${Number(r[k] ?? 0).toFixed(3)}`).join(', ');
   process.stdout.write(
     `${s.width}x${s.height} (${(s.width * s.height / 1e6).toFixed(1)} MP, ${r.stars} stars measured, ${r.usable} usable): ` +
