@@ -3,7 +3,7 @@
  * program the main process, the preload script and the analysis worker. Browser mode bundles
  * the page in memory at start-up; `npm run build:app` writes everything to dist/app/.
  */
-import { readFile, mkdir, writeFile } from 'node:fs/promises';
+import { copyFile, readFile, mkdir, writeFile } from 'node:fs/promises';
 import { existsSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -57,8 +57,10 @@ export async function buildAll(): Promise<string[]> {
   await eb.build({ ...common, entryPoints: [path.join(APP, 'engine', 'worker.ts')], outfile: path.join(DIST, 'analysis-worker.mjs'), format: 'esm', banner: esmBanner });
   // the measurement pool looks for measure-worker.js beside the module that starts it (the bundle)
   await eb.build({ ...common, entryPoints: [path.join(ROOT, 'core', 'stars', 'measure-worker.ts')], outfile: path.join(DIST, 'measure-worker.js'), format: 'esm', banner: esmBanner });
+  // and the raw decoder for its worker (plain JavaScript, loading libraw-wasm from node_modules)
+  await copyFile(path.join(ROOT, 'core', 'frame', 'raw-worker.mjs'), path.join(DIST, 'raw-worker.mjs'));
   await writeFile(path.join(DIST, 'package.json'), JSON.stringify({ type: 'module' }) + '\n');
-  return ['renderer/app.js', 'renderer/app.css', 'main.cjs', 'preload.cjs', 'analysis-worker.mjs', 'measure-worker.js'].map((f) => path.join(DIST, f));
+  return ['renderer/app.js', 'renderer/app.css', 'main.cjs', 'preload.cjs', 'analysis-worker.mjs', 'measure-worker.js', 'raw-worker.mjs'].map((f) => path.join(DIST, f));
 }
 
 if (process.argv[1] && path.resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {

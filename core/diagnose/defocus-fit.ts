@@ -8,7 +8,7 @@
  * A focus pair adds a second frame with q + s (s = sqrt(K) * step), which fixes the sign.
  */
 import { levenbergMarquardt, robustLinearFit, type LmProblem } from '../field/lsq.ts';
-import { defocusGain } from '../field/coma-calibration.ts';
+import { defocusGain, defocusTable, gainAt } from '../field/coma-calibration.ts';
 import { median } from '../field/stats.ts';
 import { medianOf } from '../field/lsq.ts';
 
@@ -74,12 +74,15 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
   const na = active.length;
   const fr = d.frame;
   const eps = d.eps ?? 0;
+  const table = defocusTable(eps);
+  const dH = new Float64Array(1);
+  const jac = new Float64Array(na);
   return {
     n: d.n, y: d.T, w,
     batch(pr, M, g) {
+      const C = (globalThis as any).__calls; if (C) { C.n++; C.stars += d.n; if (M) C.j++; }
       for (let j = 0; j < na; j++) full[active[j]] = pr[j];
       const T0 = full[P.T0], T0b = full[P.T0b], a0 = full[P.a0], a1 = full[P.a1], a2 = full[P.a2], a3 = full[P.a3], s = full[P.s];
-      const jac = new Float64Array(na);
       const cT0 = col[P.T0], cT0b = col[P.T0b], c0 = col[P.a0], c1 = col[P.a1], c2 = col[P.a2], c3 = col[P.a3], cs = col[P.s];
       let chi2 = 0;
       for (let i = 0; i < d.n; i++) {
@@ -92,14 +95,14 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
         const q = a0 + a1 * u + a2 * v + a3 * r2 + (f ? s : 0);
         const t0 = Math.max(f ? T0b : T0, 1e-9);
         const y = (2 * q * q) / t0;
-        const gn = defocusGain(y, eps);
-        const res = d.T[i] - (t0 + q * q * gn.H);
+        const H = gainAt(table, y, dH);
+        const res = d.T[i] - (t0 + q * q * H);
         chi2 += wi * res * res;
         if (!M || !g) continue;
         jac.fill(0);
         // d/dq [q^2 H(y)] = 2q (H + y H'); d/dT0 = 1 - (y^2/2) H'
-        const q2 = 2 * q * (gn.H + y * gn.dH);
-        const dT0 = 1 - 0.5 * y * y * gn.dH;
+        const q2 = 2 * q * (H + y * dH[0]);
+        const dT0 = 1 - 0.5 * y * y * dH[0];
         if (f) { if (cT0b >= 0) jac[cT0b] = dT0; } else if (cT0 >= 0) jac[cT0] = dT0;
         if (c0 >= 0) jac[c0] = q2;
         if (c1 >= 0) jac[c1] = q2 * u;

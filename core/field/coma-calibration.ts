@@ -283,7 +283,10 @@ export function adaptiveDefocusT(d: number, eps = 0): number {
   return a.wxx + a.wyy;
 }
 
-function defocusTable(eps: number): { y: Float64Array; H: Float64Array } {
+export interface GainTable { readonly y: Float64Array; readonly H: Float64Array }
+
+/** The tabulated gain H(y) for this obstruction (cached per eps to 0.001). */
+export function defocusTable(eps: number): GainTable {
   const key = Math.round(eps * 1000) / 1000;
   const hit = defocusTabs.get(key);
   if (hit) return hit;
@@ -303,14 +306,25 @@ function defocusTable(eps: number): { y: Float64Array; H: Float64Array } {
 
 /** H(y) and dH/dy for the adaptive defocus gain (see defocusTable). */
 export function defocusGain(yv: number, eps = 0): { H: number; dH: number } {
-  const t = defocusTable(eps);
+  const H = gainAt(defocusTable(eps), yv, DH);
+  return { H, dH: DH[0] };
+}
+
+const DH = new Float64Array(1);
+
+/**
+ * H(yv) from a table, with dH/dy written to dOut[0]: the allocation-free form for fits that
+ * evaluate it for every star at every step.
+ */
+export function gainAt(t: GainTable, yv: number, dOut: Float64Array): number {
   const n = t.y.length;
-  if (!(yv > 0)) return { H: 1, dH: (t.H[1] - t.H[0]) / (t.y[1] - t.y[0]) };
-  if (yv >= t.y[n - 1]) return { H: t.H[n - 1], dH: 0 };
+  if (!(yv > 0)) { dOut[0] = (t.H[1] - t.H[0]) / (t.y[1] - t.y[0]); return 1; }
+  if (yv >= t.y[n - 1]) { dOut[0] = 0; return t.H[n - 1]; }
   let lo = 0, hi = n - 1;
   while (hi - lo > 1) { const m = (lo + hi) >> 1; if (t.y[m] <= yv) lo = m; else hi = m; }
   const dH = (t.H[hi] - t.H[lo]) / (t.y[hi] - t.y[lo]);
-  return { H: t.H[lo] + dH * (yv - t.y[lo]), dH };
+  dOut[0] = dH;
+  return t.H[lo] + dH * (yv - t.y[lo]);
 }
 
 /**

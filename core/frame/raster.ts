@@ -8,12 +8,20 @@
  * into 3 channels and 16-bit RGB into 8-bit-range values; `.toColourspace(meta.space)`
  * first keeps the samples bit-exact. Embedded ICC profiles are ignored (no colour transform).
  */
-import sharp, { type Metadata, type OutputInfo } from 'sharp';
+import type { Metadata, OutputInfo } from 'sharp';
 import { unreadable } from '../errors.ts';
 import { interleavedToPlane, srgbLinearTable8 } from './colour.ts';
 import { exifPixelSizeUm, parseExif } from './exif.ts';
 import { MAX_FRAME_PIXELS } from './limits.ts';
 import type { Frame, OpticsHints } from './types.ts';
+
+type Sharp = typeof import('sharp').default;
+
+// loaded on first use: the native library takes ~0.2 s to load, which FITS and raw runs skip
+let sharpLib: Sharp | null = null;
+async function loadSharp(): Promise<Sharp> {
+  return (sharpLib ??= (await import('sharp')).default);
+}
 
 type RasterFormat = 'png' | 'tiff' | 'jpeg';
 
@@ -42,6 +50,12 @@ export async function decodeRaster(bytes: Uint8Array): Promise<Frame> {
   const label = fmt.toUpperCase();
   // failOn 'error': truncated or corrupt pixel data is refused; harmless warnings are not.
   const opts = { limitInputPixels: MAX_FRAME_PIXELS, failOn: 'error' as const, ignoreIcc: true };
+  let sharp: Sharp;
+  try {
+    sharp = await loadSharp();
+  } catch (err) {
+    throw unreadable(`cannot read ${label} images here: the image library (sharp) did not load: ${oneLine(err)}`);
+  }
   let meta: Metadata;
   try {
     // Header only (no pixel buffer), so the size check below can give its own message.

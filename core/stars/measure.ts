@@ -9,6 +9,7 @@ import type { Star, StarFlag, PsfFit } from './types.ts';
 import { fitPsfWithSnr } from './psf-fit.ts';
 import { adaptiveMoments, adaptiveMomentErrors, momentsToEllipse, type AdaptiveMoments } from './moments.ts';
 import { halfFluxDiameterWithError } from './hfd.ts';
+import { selectKth } from '../image/stats.ts';
 
 export interface StampInput {
   stamp: Float32Array;   // background-subtracted pixels, row-major w*h (NaN = missing)
@@ -35,6 +36,9 @@ const MIN_FIT_SNR = 3;
 
 let VAR = new Float32Array(0);
 let INF = new Float32Array(0);
+let RING = new Float32Array(0);
+let HFDS = new Float32Array(0); // the HFD's sky-subtracted stamp
+let MOMS = new Float32Array(0); // the moments' sky-subtracted stamp
 
 /**
  * Measure one star. Coordinates in the returned Star are plane coordinates
@@ -107,7 +111,21 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
       if (v > best && (x - cx0) ** 2 + (y - cy0) ** 2 <= rs * rs) { best = v; px = x; py = y; }
     }
   }
-  const mom = adaptiveMoments(stamp, w, h, px, py, sigmaGuess);
+  // The mesh sky misses structure smaller than its boxes (nebulosity, a galaxy's halo), and an
+  // offset left under a star widens its moments, the sizes the field map reads. The ring at the
+  // stamp's edge gives the local level (common practice: an annulus background); it is taken
+  // off when it differs from the mesh sky by more than 4 standard errors of a median
+  // (1.2533 sigma / sqrt n), so on a well-modelled sky the moments see the stamp as it is.
+  let momStamp = stamp;
+  const edgeR = Math.min(px + 0.5, w - 0.5 - px, py + 0.5, h - 0.5 - py);
+  if (edgeR > 6) {
+    const ring = ringLevel(stamp, w, h, px, py, edgeR);
+    if (ring.n >= 12 && Math.abs(ring.level) > (4 * 1.2533 * Math.sqrt(skyVar)) / Math.sqrt(ring.n)) {
+      if (MOMS.length < n) MOMS = new Float32Array(Math.max(n, 2 * MOMS.length));
+      momStamp = minus(stamp, ring.level, MOMS.subarray(0, n));
+    }
+  }
+  const mom = adaptiveMoments(momStamp, w, h, px, py, sigmaGuess);
   const momOk = mom.converged && mom.flux > 0 && mom.ixx > 0 && mom.iyy > 0;
 
   // Per-pixel variance (module scratch).
@@ -158,7 +176,7 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
   const r50Guess = momOk ? 1.1774 * Math.sqrt(0.5 * (mom.ixx + mom.iyy)) : 1.1774 * sigmaGuess;
   const hfd = halfFluxDiameterWithError(localSkySubtracted(stamp, w, h, hx, hy, maxR), variance, w, h, hx, hy, maxR, r50Guess);
   const hfdErr = hfd.errPx;
-  const merr = momOk ? adaptiveMomentErrors(stamp, variance, w, h, mom) : { x: NaN, y: NaN, e1: NaN, e2: NaN };
+  const merr = momOk ? adaptiveMomentErrors(momStamp, variance, w, h, mom) : { x: NaN, y: NaN, e1: NaN, e2: NaN };
 
   const nan = Number.NaN;
   let snr = nan;
@@ -290,6 +308,34 @@ function borderVariance(stamp: Float32Array, w: number, h: number): number {
 }
 
 /**
+ * Median of the pixels in the ring rMax - 2 <= r <= rMax about (x, y), and their count
+ * (the upper middle value for an even count). Uses the RING scratch.
+ */
+function ringLevel(stamp: Float32Array, w: number, h: number, x: number, y: number, rMax: number): { level: number; n: number } {
+  const r0 = (rMax - 2) * (rMax - 2);
+  const r1 = rMax * rMax;
+  const ya = Math.max(0, Math.ceil(y - rMax)), yb = Math.min(h - 1, Math.floor(y + rMax));
+  const xa = Math.max(0, Math.ceil(x - rMax)), xb = Math.min(w - 1, Math.floor(x + rMax));
+  if (RING.length < w * h) RING = new Float32Array(Math.max(w * h, 2 * RING.length));
+  let n = 0;
+  for (let j = ya; j <= yb; j++) {
+    const dy2 = (j - y) * (j - y);
+    for (let i = xa; i <= xb; i++) {
+      const d = (i - x) * (i - x) + dy2;
+      const v = stamp[j * w + i];
+      if (d >= r0 && d <= r1 && v === v) RING[n++] = v;
+    }
+  }
+  return { level: n > 0 ? selectKth(RING, n, n >> 1) : Number.NaN, n };
+}
+
+/** stamp - level into the given scratch (the input is never modified). */
+function minus(stamp: Float32Array, level: number, out: Float32Array): Float32Array {
+  for (let k = 0; k < stamp.length; k++) out[k] = stamp[k] - level;
+  return out;
+}
+
+/**
  * The stamp less its local sky: the median of an outer ring (2 px wide) about the star.
  * The mesh sky can be off near bright stars or in crowded fields, and any offset
  * enters the curve of growth times the aperture area (common practice: a local
@@ -297,21 +343,12 @@ function borderVariance(stamp: Float32Array, w: number, h: number): number {
  */
 function localSkySubtracted(stamp: Float32Array, w: number, h: number, x: number, y: number, rMax: number): Float32Array {
   if (!(rMax > 6)) return stamp;
-  const r0 = (rMax - 2) * (rMax - 2);
-  const r1 = rMax * rMax;
-  const ring: number[] = [];
-  for (let j = 0; j < h; j++) for (let i = 0; i < w; i++) {
-    const d = (i - x) * (i - x) + (j - y) * (j - y);
-    const v = stamp[j * w + i];
-    if (d >= r0 && d <= r1 && v === v) ring.push(v);
-  }
-  if (ring.length < 12) return stamp;
-  ring.sort((a, b) => a - b);
-  const sky = ring[ring.length >> 1];
+  const ring = ringLevel(stamp, w, h, x, y, rMax);
+  if (ring.n < 12) return stamp;
+  const sky = ring.level;
   if (!Number.isFinite(sky) || sky === 0) return stamp;
-  const out = new Float32Array(stamp.length);
-  for (let k = 0; k < stamp.length; k++) out[k] = stamp[k] - sky;
-  return out;
+  if (HFDS.length < stamp.length) HFDS = new Float32Array(Math.max(stamp.length, 2 * HFDS.length));
+  return minus(stamp, sky, HFDS.subarray(0, stamp.length));
 }
 
 /** Adds f once (a plain array: a Set here made the optimised code bail out on every new call site). */

@@ -213,10 +213,10 @@ describe('hostile scenes', () => {
     expect(d.spacing.pattern).toBe('none');
   });
 
-  // KNOWN FAILURE, kept so that a fix shows up: the sky mesh (3x3 median over 64 px boxes)
-  // leaves about 17 % of a sigma-140 px glow in the residual, which widens the adaptive moments
-  // of the stars on it; the diagnosis then fits a tilt (significance ~6.7, ~4 mrad).
-  it.fails('nebulosity does not make the diagnosis report tilt (known failure: sky under-subtracted under the glow)', async () => {
+  // The sky mesh (3x3 median over 64 px boxes) leaves about 17 % of a sigma-140 px glow in the
+  // residual; before the stars' moments took off their local ring level (measure.ts), that
+  // offset widened them and the diagnosis fitted a tilt (significance 6.7, ~4 mrad).
+  it('nebulosity does not make the diagnosis report tilt (the moments take off the local level left under the glow)', async () => {
     const o = await nebula();
     const t = (o.report.diagnosis as Diagnosis).tilt;
     console.log(`nebulosity tilt: significance ${t.significance.toFixed(2)}, ${t.tiltMrad?.toFixed(2)} mrad`);

@@ -8,8 +8,8 @@ import { mulberry32, normal } from '../helpers/rng.ts';
 
 const dir = path.resolve('test-output/cli');
 
-function run(args: string[]) {
-  const r = spawnSync(process.execPath, ['bin/skyloupe.mjs', ...args], { encoding: 'utf8', timeout: 60_000 });
+function run(args: string[], env: NodeJS.ProcessEnv = process.env) {
+  const r = spawnSync(process.execPath, ['bin/skyloupe.mjs', ...args], { encoding: 'utf8', timeout: 60_000, env });
   return { code: r.status, out: r.stdout, err: r.stderr };
 }
 
@@ -106,5 +106,18 @@ describe('skyloupe CLI exit codes and messages', () => {
     expect(clash.code).toBe(2);
     expect(sha(input)).toBe(before);
     expect(existsSync(input)).toBe(true);
+  });
+
+  it('the prebuilt bundle and the TypeScript sources give the same report', () => {
+    const file = path.join(dir, 'stars.fits');
+    const bundled = run(['analyze', file, '--json', '-', '--quiet']);
+    const sources = run(['analyze', file, '--json', '-', '--quiet'], { ...process.env, SKYLOUPE_FROM_SOURCES: '1' });
+    expect(bundled.code).toBe(0);
+    expect(sources.code).toBe(0);
+    const a = JSON.parse(bundled.out), b = JSON.parse(sources.out);
+    expect(a.stars.length).toBeGreaterThan(20);
+    expect(a.stars).toEqual(b.stars);
+    expect(a.diagnosis).toEqual(b.diagnosis);
+    expect(existsSync(path.resolve('dist/cli'))).toBe(true);
   });
 });

@@ -1,5 +1,6 @@
 import { describe, it, expect } from 'vitest';
 import { measureStar, type StampInput } from '../../core/stars/measure.ts';
+import { adaptiveMoments } from '../../core/stars/moments.ts';
 import { render, rng, gauss, addGaussianNoise, matchedSnr, renderComaSpot, type StarTruth } from '../reference/psf-stamps.ts';
 
 const W = 25;
@@ -13,6 +14,28 @@ function star(u: () => number, t: StarTruth, nu: number) {
 }
 
 describe('measureStar', () => {
+  it('takes a local sky offset the mesh missed off the moments (nebulosity under a star)', () => {
+    // Point-sampled Gaussian: its covariance is sigma^2 per axis (the definition); the offset
+    // stands for sky the background mesh left in the residual.
+    const u = rng(21);
+    const fw = 4;
+    const s2 = (fw / 2.354820045) ** 2;
+    const t: StarTruth = { model: 'gaussian', x0: 12.2, y0: 11.9, flux: 2e4, fwhmMajor: fw, fwhmMinor: fw, thetaDeg: 0 };
+    const { img, sn } = star(u, t, 150);
+    const offset = 15 * sn;
+    const lifted = img.map((v) => v + offset);
+    const raw = adaptiveMoments(lifted, W, W, 12, 12, 1.7);
+    expect((raw.ixx + raw.iyy) / (2 * s2)).toBeGreaterThan(1.1); // the bias this guards against
+    const m = measureStar(input(lifted, sn * sn), { model: 'gaussian' });
+    expect((m.moments.ixx + m.moments.iyy) / (2 * s2)).toBeCloseTo(1, 1);
+    // the fit has its own background term and sees the same star either way
+    const clean = measureStar(input(img, sn * sn), { model: 'gaussian' });
+    expect(m.fwhmPx / clean.fwhmPx).toBeCloseTo(1, 2);
+    // on a sky the mesh got right, the moments are those of the stamp as it is
+    const direct = adaptiveMoments(img, W, W, 12, 12, 1.7);
+    expect(clean.moments.ixx).toBeCloseTo(direct.ixx, 4);
+  });
+
   it('reports plane coordinates, size, shape, HFD, moments and coma', () => {
     const u = rng(1);
     const t: StarTruth = { model: 'gaussian', x0: 12.3, y0: 11.7, flux: 1e4, fwhmMajor: 4.4, fwhmMinor: 3.6, thetaDeg: 30 };
