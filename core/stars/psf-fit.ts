@@ -27,6 +27,7 @@
  */
 
 import type { PsfFit } from './types.ts';
+import { PSF_FIT_WASM_BASE64 } from './wasm/psf-fit.wasm.ts';
 
 export interface FitOptions {
   model: 'gaussian' | 'moffat';
@@ -330,6 +331,84 @@ export function fitPsf(stamp: Float32Array, w: number, h: number, opts: FitOptio
  * the number of pixels fitted.
  */
 export function fitPsfWithSnr(stamp: Float32Array, w: number, h: number, opts: FitOptions): { fit: PsfFit; snr: number; nPixels: number } {
+  const k = wasmKernel();
+  if (k && w * h <= k.capacity && w > 0 && h > 0) return fitPsfWithSnrWasm(k, stamp, w, h, opts);
+  return fitPsfWithSnrJs(stamp, w, h, opts);
+}
+
+interface WasmKernel {
+  capacity: number;
+  stamp: Float32Array;
+  variance: Float32Array;
+  out: Float64Array;
+  fit: (w: number, h: number, moffat: number, maxIter: number, radius: number, constVar: number,
+    ix: number, iy: number, ixx: number, iyy: number, ixy: number, amp: number, bg: number) => number;
+}
+let kernel: WasmKernel | null | undefined;
+interface WasmApi {
+  Module: new (bytes: Uint8Array) => object;
+  Instance: new (module: object, imports: object) => { exports: Record<string, unknown> };
+}
+
+/**
+ * The fit's loop compiled to WebAssembly (wasm/psf-fit.as.ts, the same algorithm as
+ * fitPsfWithSnrJs below), instantiated once per thread; null where WebAssembly is unavailable
+ * or SKYLOUPE_PSF_FIT=js asks for the TypeScript loop.
+ */
+function wasmKernel(): WasmKernel | null {
+  if (kernel !== undefined) return kernel;
+  kernel = null;
+  try {
+    if (typeof process !== 'undefined' && process.env?.SKYLOUPE_PSF_FIT === 'js') return null;
+    const bin = Uint8Array.from(atob(PSF_FIT_WASM_BASE64), (c) => c.charCodeAt(0));
+    // the platform's WebAssembly (this project's lib setting has no DOM types for it)
+    const WA = (globalThis as unknown as { WebAssembly: WasmApi }).WebAssembly;
+    const inst = new WA.Instance(new WA.Module(bin), { env: { abort: () => { throw new Error('psf-fit wasm: abort'); } } });
+    const e = inst.exports;
+    const mem = e.memory as { buffer: ArrayBuffer };
+    const cap = (e.capacity as () => number)();
+    kernel = {
+      capacity: cap,
+      stamp: new Float32Array(mem.buffer, (e.stampPtr as () => number)(), cap),
+      variance: new Float32Array(mem.buffer, (e.variancePtr as () => number)(), cap),
+      out: new Float64Array(mem.buffer, (e.outPtr as () => number)(), 80),
+      fit: e.fit as WasmKernel['fit'],
+    };
+  } catch {
+    kernel = null;
+  }
+  return kernel;
+}
+
+/** fitPsfWithSnr through the WebAssembly loop; start values and the derived quantities here. */
+function fitPsfWithSnrWasm(k: WasmKernel, stamp: Float32Array, w: number, h: number, opts: FitOptions): { fit: PsfFit; snr: number; nPixels: number } {
+  const moffat = opts.model === 'moffat';
+  const m = moffat ? 8 : 7;
+  const nPix = w * h;
+  ensure(nPix + 2 * (w + h));
+  const init = opts.init;
+  const variance = opts.variance;
+  let constVar = -1;
+  if (typeof variance === 'number') constVar = variance > 0 && Number.isFinite(variance) ? variance : 0;
+  else k.variance.set(variance.subarray(0, nPix));
+  k.stamp.set(stamp.subarray(0, nPix));
+  let bg = init.background;
+  if (bg === undefined || !Number.isFinite(bg)) bg = borderMedian(stamp, w, h);
+  let amp = init.amplitude;
+  if (amp === undefined || !Number.isFinite(amp)) amp = peakNear(stamp, w, h, init.x, init.y) - bg;
+  const radius = opts.radius !== undefined && opts.radius > 0 ? opts.radius : 0;
+  const status = k.fit(w, h, moffat ? 1 : 0, opts.maxIterations ?? 100, radius, constVar, init.x, init.y, init.ixx, init.iyy, init.ixy, amp, bg);
+  const o = k.out;
+  for (let i = 0; i < 8; i++) P[i] = o[i];
+  const n = o[75];
+  if (status !== 0) return { fit: failed(opts.model, P, 0), snr: Number.NaN, nPixels: n };
+  HM = m;
+  for (let i = 0; i < m * m; i++) H[i] = o[8 + i];
+  return { fit: finish(opts.model, m, n, o[72], o[73], o[74] === 1 && P[2] > 0), snr: o[76], nPixels: n };
+}
+
+/** The TypeScript loop: the reference for the WebAssembly one, and the fallback. */
+export function fitPsfWithSnrJs(stamp: Float32Array, w: number, h: number, opts: FitOptions): { fit: PsfFit; snr: number; nPixels: number } {
   const moffat = opts.model === 'moffat';
   const m = moffat ? 8 : 7;
   const maxIter = opts.maxIterations ?? 100;

@@ -1,0 +1,353 @@
+// AssemblyScript source of the PSF fit's Levenberg-Marquardt core, compiled to WebAssembly by
+// `npm run build:wasm` (asc, the AssemblyScript compiler, a dev dependency) into
+// psf-fit-wasm.ts. It is the same algorithm, line for line, as fitPsfWithSnr's loop in
+// ../psf-fit.ts (models, Jacobians, damping, stopping, bounds: see the comments there); that
+// TypeScript version stays the reference, and test/unit/stars-psf-fit-wasm.test.ts checks that
+// both give the same fits and that the compiled bytes match this source.
+// Why: WebAssembly is compiled once, up front; the same code as JavaScript spends about 1 s of
+// CPU per worker thread in the JIT before it runs at full speed, and its exp/log cost more.
+
+const CAP: i32 = 16384; // pixels of the largest stamp handled here (128 x 128)
+const LN2: f64 = 0.6931471805599453;
+const G_MIN: f64 = 1.0 / 20.0;
+const G_MAX: f64 = 1.0 / 1.2;
+
+const STAMP = new StaticArray<f32>(CAP);
+const VARI = new StaticArray<f32>(CAP);
+const DAT = new StaticArray<f64>(CAP);
+const WT = new StaticArray<f64>(CAP);
+const PROF = new StaticArray<f64>(CAP);
+const LNU = new StaticArray<f64>(CAP);
+const IU = new StaticArray<f64>(CAP);
+const COLT = new StaticArray<f64>(CAP);
+const H = new StaticArray<f64>(64);
+const G = new StaticArray<f64>(8);
+const A = new StaticArray<f64>(64);
+const P = new StaticArray<f64>(8);
+const PT = new StaticArray<f64>(8);
+const DELTA = new StaticArray<f64>(8);
+// results: P[0..8), H[8..72) (m x m, row-major), chi2, iterations, converged, pixels, snr
+const OUT = new StaticArray<f64>(80);
+
+let GW: i32 = 0;
+let BX0: i32 = 0, BX1: i32 = -1, BY0: i32 = 0, BY1: i32 = -1;
+let HM: i32 = 7;
+
+export function capacity(): i32 { return CAP; }
+export function stampPtr(): usize { return changetype<usize>(STAMP); }
+export function variancePtr(): usize { return changetype<usize>(VARI); }
+export function outPtr(): usize { return changetype<usize>(OUT); }
+
+function validShape(p: StaticArray<f64>, moffat: bool, w: i32, h: i32): bool {
+  const a = unchecked(p[4]), b = unchecked(p[5]), c = unchecked(p[6]);
+  if (!(a > 0 && c > 0 && a * c - b * b > 1e-12 * a * c)) return false;
+  const x = unchecked(p[0]), y = unchecked(p[1]);
+  if (!(x > -1 && x < <f64>w && y > -1 && y < <f64>h)) return false;
+  if (moffat && !(unchecked(p[7]) >= G_MIN && unchecked(p[7]) <= G_MAX)) return false;
+  return isFinite(unchecked(p[2])) && isFinite(unchecked(p[3]));
+}
+
+function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
+  const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
+  const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
+  const a = unchecked(p[4]), b2 = 2 * unchecked(p[5]), c = unchecked(p[6]);
+  let chi2: f64 = 0;
+  if (moffat) {
+    const mb = -1 / unchecked(p[7]);
+    const kh = Math.pow(2, unchecked(p[7])) - 1;
+    for (let y = ya; y <= yb; y++) {
+      const dy = <f64>y - y0;
+      const row = y * w;
+      for (let x = xa; x <= xb; x++) {
+        const k = row + x;
+        const wk = unchecked(WT[k]);
+        if (wk == 0) { unchecked(PROF[k] = 0); continue; }
+        const dx = <f64>x - x0;
+        const u = 1 + kh * (dx * (a * dx + b2 * dy) + c * dy * dy);
+        const lnu = Math.log(u);
+        const e = Math.exp(mb * lnu);
+        unchecked(LNU[k] = lnu);
+        unchecked(IU[k] = 1 / u);
+        unchecked(PROF[k] = e);
+        const r = unchecked(DAT[k]) - bg - amp * e;
+        chi2 += wk * r * r;
+      }
+    }
+    return chi2;
+  }
+  const ka = -LN2 * a, kc = -LN2 * c, kb = -LN2 * b2;
+  const separable = Math.abs(kb) * (Math.abs(<f64>xa - x0) + Math.abs(<f64>xb - x0) + 1) * (Math.abs(<f64>ya - y0) + Math.abs(<f64>yb - y0) + 1) < 600;
+  if (separable) {
+    for (let x = xa; x <= xb; x++) { const dx = <f64>x - x0; unchecked(COLT[x] = Math.exp(ka * dx * dx)); }
+    for (let y = ya; y <= yb; y++) {
+      const dy = <f64>y - y0;
+      const row = y * w;
+      let t = Math.exp(kc * dy * dy + kb * (<f64>xa - x0) * dy);
+      const ratio = Math.exp(kb * dy);
+      for (let x = xa; x <= xb; x++) {
+        const k = row + x;
+        const e = unchecked(COLT[x]) * t;
+        t *= ratio;
+        unchecked(PROF[k] = e);
+        const wk = unchecked(WT[k]);
+        if (wk == 0) continue;
+        const r = unchecked(DAT[k]) - bg - amp * e;
+        chi2 += wk * r * r;
+      }
+    }
+    return chi2;
+  }
+  for (let y = ya; y <= yb; y++) {
+    const dy = <f64>y - y0;
+    const row = y * w;
+    for (let x = xa; x <= xb; x++) {
+      const k = row + x;
+      const dx = <f64>x - x0;
+      const e = Math.exp(dx * (ka * dx + kb * dy) + kc * dy * dy);
+      unchecked(PROF[k] = e);
+      const wk = unchecked(WT[k]);
+      if (wk == 0) continue;
+      const r = unchecked(DAT[k]) - bg - amp * e;
+      chi2 += wk * r * r;
+    }
+  }
+  return chi2;
+}
+
+@inline function setH(i: i32, j: i32, v: f64): void {
+  unchecked(H[i * HM + j] = v);
+  unchecked(H[j * HM + i] = v);
+}
+
+function normalEquations(p: StaticArray<f64>, moffat: bool): void {
+  const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
+  const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
+  const a = unchecked(p[4]), b = unchecked(p[5]), c = unchecked(p[6]);
+  let h00: f64 = 0, h01: f64 = 0, h02: f64 = 0, h03: f64 = 0, h04: f64 = 0, h05: f64 = 0, h06: f64 = 0;
+  let h11: f64 = 0, h12: f64 = 0, h13: f64 = 0, h14: f64 = 0, h15: f64 = 0, h16: f64 = 0;
+  let h22: f64 = 0, h23: f64 = 0, h24: f64 = 0, h25: f64 = 0, h26: f64 = 0;
+  let h33: f64 = 0, h34: f64 = 0, h35: f64 = 0, h36: f64 = 0;
+  let h44: f64 = 0, h45: f64 = 0, h46: f64 = 0;
+  let h55: f64 = 0, h56: f64 = 0;
+  let h66: f64 = 0;
+  let h07: f64 = 0, h17: f64 = 0, h27: f64 = 0, h37: f64 = 0, h47: f64 = 0, h57: f64 = 0, h67: f64 = 0, h77: f64 = 0;
+  let g0: f64 = 0, g1: f64 = 0, g2: f64 = 0, g3: f64 = 0, g4: f64 = 0, g5: f64 = 0, g6: f64 = 0, g7: f64 = 0;
+  const beta = moffat ? 1 / unchecked(p[7]) : 0;
+  const kh = moffat ? Math.pow(2, unchecked(p[7])) - 1 : 0;
+  const dkk = moffat ? (-(kh + 1) * LN2) / (beta * beta * kh) : 0;
+  const ab2k = 2 * amp * beta * kh;
+  const ln2a2 = 2 * LN2 * amp;
+  for (let y = ya; y <= yb; y++) {
+    const dy = <f64>y - y0;
+    const row = y * w;
+    for (let x = xa; x <= xb; x++) {
+      const k = row + x;
+      const wk = unchecked(WT[k]);
+      if (wk == 0) continue;
+      const e = unchecked(PROF[k]);
+      const r = unchecked(DAT[k]) - bg - amp * e;
+      if (e < 1e-10) { h33 += wk; g3 += wk * r; continue; }
+      const dx = <f64>x - x0;
+      let q: f64;
+      let j7: f64 = 0;
+      if (moffat) {
+        const iu = unchecked(IU[k]);
+        q = ab2k * e * iu;
+        j7 = amp * e * beta * beta * (unchecked(LNU[k]) + beta * dkk * (1 - iu));
+      } else {
+        q = ln2a2 * e;
+      }
+      const j0 = q * (a * dx + b * dy);
+      const j1 = q * (b * dx + c * dy);
+      const j2 = e;
+      const j4 = -0.5 * q * dx * dx;
+      const j5 = -q * dx * dy;
+      const j6 = -0.5 * q * dy * dy;
+      const w0 = wk * j0, w1 = wk * j1, w2 = wk * j2, w4 = wk * j4, w5 = wk * j5, w6 = wk * j6;
+      h00 += w0 * j0; h01 += w0 * j1; h02 += w0 * j2; h03 += w0; h04 += w0 * j4; h05 += w0 * j5; h06 += w0 * j6;
+      h11 += w1 * j1; h12 += w1 * j2; h13 += w1; h14 += w1 * j4; h15 += w1 * j5; h16 += w1 * j6;
+      h22 += w2 * j2; h23 += w2; h24 += w2 * j4; h25 += w2 * j5; h26 += w2 * j6;
+      h33 += wk; h34 += w4; h35 += w5; h36 += w6;
+      h44 += w4 * j4; h45 += w4 * j5; h46 += w4 * j6;
+      h55 += w5 * j5; h56 += w5 * j6;
+      h66 += w6 * j6;
+      const wr = wk * r;
+      g0 += wr * j0; g1 += wr * j1; g2 += wr * j2; g3 += wr; g4 += wr * j4; g5 += wr * j5; g6 += wr * j6;
+      if (moffat) {
+        const w7 = wk * j7;
+        h07 += w0 * j7; h17 += w1 * j7; h27 += w2 * j7; h37 += w7; h47 += w4 * j7; h57 += w5 * j7; h67 += w6 * j7; h77 += w7 * j7;
+        g7 += wr * j7;
+      }
+    }
+  }
+  HM = moffat ? 8 : 7;
+  setH(0, 0, h00); setH(0, 1, h01); setH(0, 2, h02); setH(0, 3, h03); setH(0, 4, h04); setH(0, 5, h05); setH(0, 6, h06);
+  setH(1, 1, h11); setH(1, 2, h12); setH(1, 3, h13); setH(1, 4, h14); setH(1, 5, h15); setH(1, 6, h16);
+  setH(2, 2, h22); setH(2, 3, h23); setH(2, 4, h24); setH(2, 5, h25); setH(2, 6, h26);
+  setH(3, 3, h33); setH(3, 4, h34); setH(3, 5, h35); setH(3, 6, h36);
+  setH(4, 4, h44); setH(4, 5, h45); setH(4, 6, h46);
+  setH(5, 5, h55); setH(5, 6, h56);
+  setH(6, 6, h66);
+  unchecked(G[0] = g0); unchecked(G[1] = g1); unchecked(G[2] = g2); unchecked(G[3] = g3);
+  unchecked(G[4] = g4); unchecked(G[5] = g5); unchecked(G[6] = g6);
+  if (moffat) {
+    setH(0, 7, h07); setH(1, 7, h17); setH(2, 7, h27); setH(3, 7, h37); setH(4, 7, h47); setH(5, 7, h57); setH(6, 7, h67); setH(7, 7, h77);
+    unchecked(G[7] = g7);
+  }
+}
+
+function cholesky(m: i32): bool {
+  for (let j = 0; j < m; j++) {
+    let d = unchecked(A[j * m + j]);
+    for (let k = 0; k < j; k++) d -= unchecked(A[j * m + k]) * unchecked(A[j * m + k]);
+    if (!(d > 0)) return false;
+    const l = Math.sqrt(d);
+    unchecked(A[j * m + j] = l);
+    for (let i = j + 1; i < m; i++) {
+      let v = unchecked(A[i * m + j]);
+      for (let k = 0; k < j; k++) v -= unchecked(A[i * m + k]) * unchecked(A[j * m + k]);
+      unchecked(A[i * m + j] = v / l);
+    }
+  }
+  return true;
+}
+
+function cholSolve(m: i32, out: StaticArray<f64>): void {
+  for (let i = 0; i < m; i++) {
+    let v = unchecked(out[i]);
+    for (let k = 0; k < i; k++) v -= unchecked(A[i * m + k]) * unchecked(out[k]);
+    unchecked(out[i] = v / unchecked(A[i * m + i]));
+  }
+  for (let i = m - 1; i >= 0; i--) {
+    let v = unchecked(out[i]);
+    for (let k = i + 1; k < m; k++) v -= unchecked(A[k * m + i]) * unchecked(out[k]);
+    unchecked(out[i] = v / unchecked(A[i * m + i]));
+  }
+}
+
+function solveStep(m: i32, lambda: f64, frozen: i32): bool {
+  for (let i = 0; i < m; i++) {
+    for (let j = 0; j < m; j++) unchecked(A[i * m + j] = unchecked(H[i * m + j]));
+    const d = unchecked(H[i * m + i]);
+    unchecked(A[i * m + i] = d + lambda * (d > 0 ? d : 1e-30) + 1e-300);
+    unchecked(DELTA[i] = unchecked(G[i]));
+  }
+  if (frozen >= 0) {
+    for (let j = 0; j < m; j++) { unchecked(A[frozen * m + j] = 0); unchecked(A[j * m + frozen] = 0); }
+    unchecked(A[frozen * m + frozen] = 1);
+    unchecked(DELTA[frozen] = 0);
+  }
+  if (!cholesky(m)) return false;
+  cholSolve(m, DELTA);
+  for (let i = 0; i < m; i++) if (!isFinite(unchecked(DELTA[i]))) return false;
+  return true;
+}
+
+/**
+ * The fit of ../psf-fit.ts fitPsfWithSnr from its start values (the caller fills in missing
+ * amplitude and background first). Stamp and variance in STAMP / VARI; constVar >= 0 means a
+ * constant variance, < 0 the per-pixel one. Returns 0 when the fit ran (results in OUT), 1 when
+ * it could not start (P in OUT, pixel count in OUT[75]).
+ */
+export function fit(w: i32, h: i32, moffat: bool, maxIter: i32, radius: f64, constVar: f64,
+  ix: f64, iy: f64, ixx: f64, iyy: f64, ixy: f64, amp: f64, bg: f64): i32 {
+  const m: i32 = moffat ? 8 : 7;
+  GW = w;
+  const r2max = radius > 0 ? radius * radius : Infinity;
+  const rw = Math.sqrt(r2max);
+  const fin = isFinite(rw);
+  const ya: i32 = fin ? <i32>Math.max(0, Math.floor(iy - rw)) : 0, yb: i32 = fin ? <i32>Math.min(<f64>(h - 1), Math.ceil(iy + rw)) : h - 1;
+  const xa: i32 = fin ? <i32>Math.max(0, Math.floor(ix - rw)) : 0, xb: i32 = fin ? <i32>Math.min(<f64>(w - 1), Math.ceil(ix + rw)) : w - 1;
+  BX0 = xa; BX1 = xb; BY0 = ya; BY1 = yb;
+  let n: i32 = 0;
+  for (let y = ya; y <= yb; y++) {
+    const dy2 = (<f64>y - iy) * (<f64>y - iy);
+    for (let x = xa; x <= xb; x++) {
+      const i = y * w + x;
+      const v = <f64>unchecked(STAMP[i]);
+      const s2 = constVar >= 0 ? constVar : <f64>unchecked(VARI[i]);
+      const out = (<f64>x - ix) * (<f64>x - ix) + dy2 > r2max;
+      if (out || !isFinite(v) || !(s2 > 0) || !isFinite(s2)) { unchecked(DAT[i] = 0); unchecked(WT[i] = 0); continue; }
+      unchecked(DAT[i] = v); unchecked(WT[i] = 1 / s2);
+      n++;
+    }
+  }
+  const det = ixx * iyy - ixy * ixy;
+  const scale = 1 / (2 * LN2);
+  unchecked(P[0] = ix); unchecked(P[1] = iy);
+  unchecked(P[4] = (iyy / det) * scale); unchecked(P[5] = (-ixy / det) * scale); unchecked(P[6] = (ixx / det) * scale);
+  unchecked(P[7] = moffat ? 1.0 / 4.0 : 0);
+  unchecked(P[3] = bg);
+  unchecked(P[2] = amp);
+  unchecked(OUT[75] = <f64>n);
+  if (n <= m || !validShape(P, moffat, w, h) || !(det > 0)) { copyP(); return 1; }
+  let chi2 = chi2At(P, moffat);
+  if (!isFinite(chi2)) { copyP(); return 1; }
+  normalEquations(P, moffat);
+  const dof = <f64>(n - m);
+  let lambda: f64 = 1e-3;
+  let nu: f64 = 2;
+  let converged = false;
+  let profAtP = true;
+  let iter: i32 = 0;
+  for (; iter < maxIter; iter++) {
+    const tol = 1e-3 * Math.max(chi2 / dof, 1e-300);
+    let frozen: i32 = -1;
+    if (moffat) {
+      if (!solveStep(m, lambda, -1)) { lambda *= nu; nu *= 2; if (lambda > 1e12) break; continue; }
+      const gt = unchecked(P[7]) + unchecked(DELTA[7]);
+      if ((unchecked(P[7]) <= G_MIN && gt < G_MIN) || (unchecked(P[7]) >= G_MAX && gt > G_MAX)) frozen = 7;
+    }
+    if (frozen >= 0 || !moffat) {
+      if (!solveStep(m, lambda, frozen)) { lambda *= nu; nu *= 2; if (lambda > 1e12) break; continue; }
+    }
+    let pred: f64 = 0;
+    for (let i = 0; i < m; i++) {
+      unchecked(PT[i] = unchecked(P[i]) + unchecked(DELTA[i]));
+      const d = unchecked(H[i * m + i]);
+      pred += unchecked(DELTA[i]) * (unchecked(G[i]) + lambda * (d > 0 ? d : 1e-30) * unchecked(DELTA[i]));
+    }
+    if (moffat) unchecked(PT[7] = Math.min(G_MAX, Math.max(G_MIN, unchecked(PT[7]))));
+    const ok = validShape(PT, moffat, w, h);
+    const chi2t = ok ? chi2At(PT, moffat) : Infinity;
+    if (ok) profAtP = false;
+    if (chi2t < chi2) {
+      const rho = (chi2 - chi2t) / Math.max(pred, 1e-300);
+      for (let i = 0; i < m; i++) unchecked(P[i] = unchecked(PT[i]));
+      const drop = chi2 - chi2t;
+      chi2 = chi2t;
+      profAtP = true;
+      if (pred < tol && drop < tol) { converged = true; iter++; break; }
+      normalEquations(P, moffat);
+      const t = 2 * rho - 1;
+      lambda *= Math.max(1.0 / 3.0, 1 - t * t * t);
+      if (lambda < 1e-12) lambda = 1e-12;
+      nu = 2;
+    } else {
+      if (pred < tol) { converged = true; iter++; break; }
+      lambda *= nu;
+      nu *= 2;
+      if (lambda > 1e12) break;
+    }
+  }
+  if (!converged && solveStep(m, 0, -1)) {
+    let pred: f64 = 0;
+    for (let i = 0; i < m; i++) pred += unchecked(DELTA[i]) * unchecked(G[i]);
+    if (pred < 1e-4 * Math.max(chi2 / dof, 1e-300)) converged = true;
+  }
+  if (!profAtP) chi2At(P, moffat);
+  let s2: f64 = 0;
+  const amp2 = unchecked(P[2]) * unchecked(P[2]);
+  for (let y = ya; y <= yb; y++) for (let k = y * w + xa; k <= y * w + xb; k++) s2 += unchecked(WT[k]) * amp2 * unchecked(PROF[k]) * unchecked(PROF[k]);
+  copyP();
+  for (let i = 0; i < m * m; i++) unchecked(OUT[8 + i] = unchecked(H[i]));
+  unchecked(OUT[72] = chi2);
+  unchecked(OUT[73] = <f64>iter);
+  unchecked(OUT[74] = converged ? 1 : 0);
+  unchecked(OUT[76] = Math.sqrt(s2));
+  return 0;
+}
+
+function copyP(): void {
+  for (let i = 0; i < 8; i++) unchecked(OUT[i] = unchecked(P[i]));
+}
