@@ -57,7 +57,7 @@ describe('resolveOptics', () => {
     expect([e.source.focalLengthMm, e.source.fNumber, e.pixelSizeUm, e.plateScaleArcsecPerPx]).toEqual(['exif', 'exif', null, null]);
   });
 
-  it('XPIXSZ already includes binning (MaxIm DL "after binning" [CP]): not multiplied by XBINNING again', () => {
+  it('XPIXSZ already includes binning (its "after binning" meaning [CP, from memory]): not multiplied by XBINNING again', () => {
     const h = fitsOpticsHints(new Map<string, string | number | boolean | null>([['XPIXSZ', 7.52], ['XBINNING', 2], ['FOCALLEN', 400]]));
     const o = resolveOptics(h, {}, 1);
     expect(o.pixelSizeUm).toBe(7.52);
