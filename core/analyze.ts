@@ -16,6 +16,8 @@ export interface AnalyzeOptions {
   threshold?: number;
   /** Worker threads for the per-star work (0 = this thread). */
   workers?: number;
+  /** A pool started by the caller (e.g. before reading the frame, so its start-up overlaps the read); left open. */
+  pool?: WorkerPool;
   model?: 'auto' | 'gaussian' | 'moffat';
   /** At most this many stars are measured (the most significant); the report says so. */
   maxStars?: number;
@@ -71,7 +73,8 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
   const optics = resolveOptics(frame.hints, opts.user ?? {}, plane.scale);
   checkFrameHasSignal(plane.data);
   // workers start now, so their start-up overlaps the serial steps
-  const pool = await WorkerPool.start(opts.workers);
+  const ownPool = !opts.pool;
+  const pool = opts.pool ?? await WorkerPool.start(opts.workers);
   try {
     let data = plane.data;
     if (pool.size > 0 && !(data.buffer instanceof SharedArrayBuffer)) {
@@ -120,7 +123,7 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('measure');
     return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
   } finally {
-    void pool.close();
+    if (ownPool) void pool.close();
   }
 }
 

@@ -1,6 +1,7 @@
 import path from 'node:path';
 import { readFrame } from '../frame/read.ts';
 import { analyzeFrame } from '../analyze.ts';
+import { WorkerPool } from '../stars/measure-pool.ts';
 import { reportFromAnalysis } from '../report/from-analysis.ts';
 import { starsCsv } from '../report/csv.ts';
 import { reportHtml } from '../report/html.ts';
@@ -145,8 +146,15 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
       throw usage(`analyze: --${opt} would overwrite the input frame; choose another file`);
     }
   }
-  const frame = await readFrame(framePath);
-  const analysis = await analyzeFrame(frame, { user, cfa, threshold, workers });
+  // the worker threads start while the frame is read
+  const pool = await WorkerPool.start(workers);
+  let analysis: Analysis;
+  try {
+    const frame = await readFrame(framePath);
+    analysis = await analyzeFrame(frame, { user, cfa, threshold, pool });
+  } finally {
+    void pool.close();
+  }
   const report = reportFromAnalysis(analysis, framePath);
   if (report.detection.usedForField === 0) {
     throw new SkyloupeError('no-stars', `${analysis.detection.candidates} detections but no usable star (all flagged: ${Object.entries(report.detection.flagged).map(([k, v]) => `${v} ${k}`).join(', ')})`);
@@ -189,10 +197,18 @@ function userOptics(values: Record<string, string | boolean | undefined>, comman
   };
 }
 
-/** Read and analyse several frames one after the other (each uses all cores). */
+/**
+ * Read and analyse several frames one after the other (each uses all cores), through one
+ * worker pool: its threads stay warm from frame to frame.
+ */
 async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>): Promise<Analysis[]> {
   const out: Analysis[] = [];
-  for (const p of paths) out.push(await analyzeFrame(await readFrame(p), { user }));
+  const pool = await WorkerPool.start();
+  try {
+    for (const p of paths) out.push(await analyzeFrame(await readFrame(p), { user, pool }));
+  } finally {
+    void pool.close();
+  }
   return out;
 }
 
