@@ -1,9 +1,10 @@
 import type { CfaPattern, Frame, Optics } from './frame/types.ts';
 import { resolveOptics, type UserOptics } from './frame/optics.ts';
 import { toMeasurePlane } from './frame/plane.ts';
-import { detectStars, estimatePsfSigma, matchedFilterTaps } from './stars/detect.ts';
+import { detectStars, estimatePsfSigma, matchedFilterTaps, PSF_PEAK_SIGMA, DEFAULT_DETECT_SIGMA } from './stars/detect.ts';
+import { filteredNoiseFactor } from './image/convolve.ts';
 import { packStamps } from './stars/stamps.ts';
-import { WorkerPool, measureAll, parallelConvolve, parallelSky, parallelSubtract, sharedFloat32 } from './stars/measure-pool.ts';
+import { WorkerPool, measureAll, parallelConvolve, parallelMaxima, parallelSky, parallelSubtract, sharedFloat32 } from './stars/measure-pool.ts';
 import type { Star, StarFlag } from './stars/types.ts';
 import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
@@ -89,15 +90,20 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('subtract');
     checkAbort(opts.signal);
     progress('detect', 0);
-    const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky);
+    const bright = await parallelMaxima(pool, residual, plane.width, plane.height, sky, 1, PSF_PEAK_SIGMA);
+    const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky, bright);
     lap('psf-size');
-    const filtered = await parallelConvolve(pool, residual, plane.width, plane.height, matchedFilterTaps(psfSigmaPx));
+    const taps = matchedFilterTaps(psfSigmaPx);
+    const filtered = await parallelConvolve(pool, residual, plane.width, plane.height, taps);
     lap('filter');
+    const threshold = opts.threshold ?? DEFAULT_DETECT_SIGMA;
+    const peaks = await parallelMaxima(pool, filtered, plane.width, plane.height, sky, filteredNoiseFactor(taps), threshold);
     const det = detectStars(residual, data, missing, plane.width, plane.height, sky, {
-      threshold: opts.threshold,
+      threshold,
       saturationLevel: plane.saturationLevel,
       psfSigmaPx,
       filtered,
+      peaks,
     });
     lap('detect');
     checkAbort(opts.signal);

@@ -3,6 +3,9 @@ import { convolveSeparable, filteredNoiseFactor, gaussianTaps } from '../image/c
 import { skyNoiseAt, type SkyModel } from '../image/background.ts';
 import { median } from '../image/stats.ts';
 
+/** Default detection threshold, in filtered-noise units. */
+export const DEFAULT_DETECT_SIGMA = 5;
+
 export interface DetectOptions {
   /** Detection threshold in units of the filtered noise. */
   threshold?: number;
@@ -14,6 +17,8 @@ export interface DetectOptions {
   stampRadius?: number;
   /** The residual already convolved with matchedFilterTaps(psfSigmaPx) (e.g. in parallel). */
   filtered?: Float32Array;
+  /** localMaximaRows of `filtered` over the whole frame, packed (e.g. found in parallel bands). */
+  peaks?: Float64Array;
 }
 
 /**
@@ -50,14 +55,14 @@ export function detectStars(
   sky: SkyModel,
   opts: DetectOptions = {},
 ): Detection {
-  const threshold = opts.threshold ?? 5;
+  const threshold = opts.threshold ?? DEFAULT_DETECT_SIGMA;
   const psfSigmaPx = opts.psfSigmaPx ?? estimatePsfSigma(residual, width, height, sky);
   const fwhm = 2.354820045 * psfSigmaPx;
   const stampRadius = opts.stampRadius ?? Math.min(40, Math.max(6, Math.ceil(3 * fwhm) + 1));
   const taps = matchedFilterTaps(psfSigmaPx);
   const filtered = opts.filtered ?? convolveSeparable(residual, width, height, taps);
   const nf = filteredNoiseFactor(taps);
-  const peaks = localMaxima(filtered, width, height, sky, nf, threshold);
+  const peaks = unpackPeaks(opts.peaks ?? localMaximaRows(filtered, width, height, sky, nf, threshold, 0, height));
   const { kept, merged } = mergePeaks(peaks, filtered, width, height, Math.max(3, 4 * psfSigmaPx));
   const candidates = flagCandidates(kept, residual, raw, missing, width, height, psfSigmaPx, stampRadius, opts.saturationLevel ?? null);
   flagStreaks(candidates, kept, filtered, width, height, psfSigmaPx, stampRadius, threshold * nf * minMeshSigma(sky));
@@ -73,10 +78,16 @@ function minMeshSigma(sky: SkyModel): number {
   return minSigma;
 }
 
-function localMaxima(f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number): Peak[] {
+/**
+ * Strict 3x3 maxima of f above threshold x the local filtered noise (sky noise x nf) in rows
+ * [y0, y1), packed as x, y, value, significance in raster order. Rows are independent, so
+ * bands can be searched in parallel and their results concatenated.
+ */
+export function localMaximaRows(f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number, y0: number, y1: number): Float64Array {
   const floor = threshold * minMeshSigma(sky) * nf;
-  const peaks: Peak[] = [];
-  for (let y = 1; y < height - 1; y++) {
+  let out = new Float64Array(256);
+  let n = 0;
+  for (let y = Math.max(1, y0); y < Math.min(height - 1, y1); y++) {
     const row = y * width;
     for (let x = 1; x < width - 1; x++) {
       const v = f[row + x];
@@ -87,9 +98,16 @@ function localMaxima(f: Float32Array, width: number, height: number, sky: SkyMod
       const noise = skyNoiseAt(sky, x, y) * nf;
       const sig = noise > 0 ? v / noise : Infinity;
       if (sig < threshold) continue;
-      peaks.push({ x, y, value: v, significance: sig });
+      if (n + 4 > out.length) { const g = new Float64Array(out.length * 2); g.set(out); out = g; }
+      out[n++] = x; out[n++] = y; out[n++] = v; out[n++] = sig;
     }
   }
+  return out.slice(0, n);
+}
+
+function unpackPeaks(p: Float64Array): Peak[] {
+  const peaks: Peak[] = [];
+  for (let i = 0; i + 3 < p.length; i += 4) peaks.push({ x: p[i], y: p[i + 1], value: p[i + 2], significance: p[i + 3] });
   return peaks;
 }
 
@@ -382,9 +400,12 @@ function anySaturated(raw: Float32Array, width: number, height: number, x: numbe
  * PSF size from the brightest isolated maxima: the area above half maximum gives
  * FWHM = 2 sqrt(A / pi) for a round profile (common practice), median over stars.
  */
-export function estimatePsfSigma(residual: Float32Array, width: number, height: number, sky: SkyModel): number {
+/** Threshold (sky sigmas) of the unfiltered maxima estimatePsfSigma measures. */
+export const PSF_PEAK_SIGMA = 15;
+
+export function estimatePsfSigma(residual: Float32Array, width: number, height: number, sky: SkyModel, packedPeaks?: Float64Array): number {
   // maxima of the unfiltered frame at 15 sigma: no noise peak gets there, and no extra pass is needed
-  const peaks = localMaxima(residual, width, height, sky, 1, 15);
+  const peaks = unpackPeaks(packedPeaks ?? localMaximaRows(residual, width, height, sky, 1, PSF_PEAK_SIGMA, 0, height));
   peaks.sort((a, b) => b.value - a.value);
   const R = 15;
   const sizes: number[] = [];

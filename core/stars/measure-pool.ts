@@ -146,6 +146,16 @@ export async function parallelConvolve(pool: WorkerPool, src: Float32Array, widt
   return out;
 }
 
+/** localMaximaRows over the frame in bands, concatenated in raster order (as one call would give). */
+export async function parallelMaxima(pool: WorkerPool, f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number): Promise<Float64Array> {
+  const parts_ = await Promise.all(bands(height, parts(pool)).map(([y0, y1]) =>
+    pool.run<Float64Array>({ kind: 'maxima', f, width, height, sky, nf, threshold, y0, y1 })));
+  const out = new Float64Array(parts_.reduce((s, p) => s + p.length, 0));
+  let o = 0;
+  for (const p of parts_) { out.set(p, o); o += p.length; }
+  return out;
+}
+
 export interface MeasureOptions {
   model?: 'auto' | 'gaussian' | 'moffat';
   signal?: AbortSignal;

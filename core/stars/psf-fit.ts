@@ -28,6 +28,7 @@
 
 import type { PsfFit } from './types.ts';
 import { PSF_FIT_WASM_BASE64 } from './wasm/psf-fit.wasm.ts';
+import { instantiateWasm } from '../wasm/instantiate.ts';
 
 export interface FitOptions {
   model: 'gaussian' | 'moffat';
@@ -345,38 +346,26 @@ interface WasmKernel {
     ix: number, iy: number, ixx: number, iyy: number, ixy: number, amp: number, bg: number) => number;
 }
 let kernel: WasmKernel | null | undefined;
-interface WasmApi {
-  Module: new (bytes: Uint8Array) => object;
-  Instance: new (module: object, imports: object) => { exports: Record<string, unknown> };
-}
 
 /**
  * The fit's loop compiled to WebAssembly (wasm/psf-fit.as.ts, the same algorithm as
  * fitPsfWithSnrJs below), instantiated once per thread; null where WebAssembly is unavailable
- * or SKYLOUPE_PSF_FIT=js asks for the TypeScript loop.
+ * or SKYLOUPE_WASM=0 / SKYLOUPE_PSF_FIT=js asks for the TypeScript loop.
  */
 function wasmKernel(): WasmKernel | null {
   if (kernel !== undefined) return kernel;
   kernel = null;
-  try {
-    if (typeof process !== 'undefined' && process.env?.SKYLOUPE_PSF_FIT === 'js') return null;
-    const bin = Uint8Array.from(atob(PSF_FIT_WASM_BASE64), (c) => c.charCodeAt(0));
-    // the platform's WebAssembly (this project's lib setting has no DOM types for it)
-    const WA = (globalThis as unknown as { WebAssembly: WasmApi }).WebAssembly;
-    const inst = new WA.Instance(new WA.Module(bin), { env: { abort: () => { throw new Error('psf-fit wasm: abort'); } } });
-    const e = inst.exports;
-    const mem = e.memory as { buffer: ArrayBuffer };
-    const cap = (e.capacity as () => number)();
-    kernel = {
-      capacity: cap,
-      stamp: new Float32Array(mem.buffer, (e.stampPtr as () => number)(), cap),
-      variance: new Float32Array(mem.buffer, (e.variancePtr as () => number)(), cap),
-      out: new Float64Array(mem.buffer, (e.outPtr as () => number)(), 80),
-      fit: e.fit as WasmKernel['fit'],
-    };
-  } catch {
-    kernel = null;
-  }
+  if (typeof process !== 'undefined' && process.env?.SKYLOUPE_PSF_FIT === 'js') return null;
+  const e = instantiateWasm(PSF_FIT_WASM_BASE64, 'psf-fit');
+  if (!e) return null;
+  const cap = (e.capacity as () => number)();
+  kernel = {
+    capacity: cap,
+    stamp: new Float32Array(e.memory.buffer, (e.stampPtr as () => number)(), cap),
+    variance: new Float32Array(e.memory.buffer, (e.variancePtr as () => number)(), cap),
+    out: new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 80),
+    fit: e.fit as WasmKernel['fit'],
+  };
   return kernel;
 }
 

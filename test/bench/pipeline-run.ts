@@ -4,12 +4,16 @@ import { readFrame } from '../../core/frame/read.ts';
 import { analyzeFrame } from '../../core/analyze.ts';
 import { buildReport } from '../../core/report/build.ts';
 import { diagnose } from '../../core/diagnose/index.ts';
+import { WorkerPool } from '../../core/stars/measure-pool.ts';
 
 const file = process.argv[2];
 const t0 = performance.now();
+// as the CLI does: the worker threads start while the frame is read
+const pool = await WorkerPool.start();
 const frame = await readFrame(file);
 const tRead = (performance.now() - t0) / 1000;
-const analysis = await analyzeFrame(frame, {});
+const analysis = await analyzeFrame(frame, { pool });
+void pool.close();
 const t1 = performance.now();
 const report = buildReport(analysis, file);
 const json = JSON.stringify(report);

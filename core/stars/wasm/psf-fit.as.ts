@@ -1,9 +1,10 @@
 // AssemblyScript source of the PSF fit's Levenberg-Marquardt core, compiled to WebAssembly by
 // `npm run build:wasm` (asc, the AssemblyScript compiler, a dev dependency) into
-// psf-fit-wasm.ts. It is the same algorithm, line for line, as fitPsfWithSnr's loop in
+// psf-fit.wasm.ts. It is the same algorithm, line for line, as fitPsfWithSnr's loop in
 // ../psf-fit.ts (models, Jacobians, damping, stopping, bounds: see the comments there); that
 // TypeScript version stays the reference, and test/unit/stars-psf-fit-wasm.test.ts checks that
-// both give the same fits and that the compiled bytes match this source.
+// both give the same fits, and test/unit/wasm-modules.test.ts that the compiled bytes match this
+// source.
 // Why: WebAssembly is compiled once, up front; the same code as JavaScript spends about 1 s of
 // CPU per worker thread in the JIT before it runs at full speed, and its exp/log cost more.
 

@@ -1,0 +1,53 @@
+// The engine's WebAssembly kernels: each committed module must be what its AssemblyScript
+// source compiles to (asc from the registry's assemblyscript package), and the sky kernel must
+// give exactly the statistics of its TypeScript reference (clippedStats in core/image/stats.ts).
+// The PSF fit's equivalence is in stars-psf-fit-wasm.test.ts.
+import { describe, it, expect } from 'vitest';
+import { clippedStats } from '../../core/image/stats.ts';
+import { instantiateWasm } from '../../core/wasm/instantiate.ts';
+import * as psf from '../../core/stars/wasm/psf-fit.wasm.ts';
+import * as sky from '../../core/image/wasm/sky-stats.wasm.ts';
+import { mulberry32, normal } from '../helpers/rng.ts';
+// @ts-expect-error plain JavaScript build script without type declarations
+import { compileWasm, sourceSha256, WASM_MODULES } from '../../bin/build-wasm.mjs';
+
+const committed: Record<string, { sha: string; b64: string }> = {
+  PSF_FIT: { sha: psf.PSF_FIT_SOURCE_SHA256, b64: psf.PSF_FIT_WASM_BASE64 },
+  SKY_STATS: { sha: sky.SKY_STATS_SOURCE_SHA256, b64: sky.SKY_STATS_WASM_BASE64 },
+};
+
+describe('WebAssembly kernels', () => {
+  it('each committed module is its compiled source (run npm run build:wasm after editing a .as.ts)', async () => {
+    expect((WASM_MODULES as { name: string }[]).map((m) => m.name).sort()).toEqual(Object.keys(committed).sort());
+    for (const m of WASM_MODULES as { name: string; source: string }[]) {
+      expect(sourceSha256(m.source)).toBe(committed[m.name].sha);
+      const bytes: Buffer = await compileWasm(m.source);
+      expect(bytes.toString('base64')).toBe(committed[m.name].b64);
+    }
+  });
+
+  it('sky statistics: the same clipped level, sigma, mean, median and count as the TypeScript loop', () => {
+    const e = instantiateWasm(sky.SKY_STATS_WASM_BASE64, 'sky-stats');
+    expect(e).not.toBeNull();
+    const cap = (e!.capacity as () => number)();
+    const buf = new Float32Array(e!.memory.buffer, (e!.samplesPtr as () => number)(), cap);
+    const out = new Float64Array(e!.memory.buffer, (e!.outPtr as () => number)(), 5);
+    const run = e!.clipped as (n: number, kappa: number, maxIter: number) => void;
+    const r = mulberry32(5);
+    const g = normal(mulberry32(6));
+    for (let k = 0; k < 300; k++) {
+      const n = [3, 10, 64, 65, 200, 1024, 4000][k % 7];
+      const integer = k % 2 === 0;
+      const vals = Float32Array.from({ length: n }, () => {
+        let v = 1000 + 25 * g();
+        if (r() < 0.05) v += 3000 * r(); // stars in the box
+        return integer ? Math.round(v) : v;
+      });
+      if (k % 11 === 0) vals.fill(7); // a flat box: sigma 0
+      const ref = clippedStats(Float32Array.from(vals), n);
+      buf.set(vals);
+      run(n, 3, 6);
+      expect([out[0], out[1], out[2], out[3], out[4]]).toEqual([ref.level, ref.sigma, ref.mean, ref.median, ref.count]);
+    }
+  });
+});
