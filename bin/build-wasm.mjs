@@ -13,13 +13,16 @@ const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 export const WASM_MODULES = [
   { source: 'core/stars/wasm/psf-fit.as.ts', module: 'core/stars/wasm/psf-fit.wasm.ts', name: 'PSF_FIT' },
   { source: 'core/image/wasm/sky-stats.as.ts', module: 'core/image/wasm/sky-stats.wasm.ts', name: 'SKY_STATS' },
+  { source: 'core/image/wasm/convolve.as.ts', module: 'core/image/wasm/convolve.wasm.ts', name: 'CONVOLVE' },
 ].map((m) => ({ ...m, source: path.join(ROOT, m.source), module: path.join(ROOT, m.module) }));
 
 /** The compiled module's bytes for a source as it is now. */
 export async function compileWasm(source) {
   const asc = (await import('assemblyscript/asc')).default;
   let binary = null;
-  const { error, stderr } = await asc.main([source, '-O3', '--runtime', 'stub', '--noAssert', '--outFile', 'out.wasm'], {
+  // SIMD (128-bit, part of WebAssembly 2.0, in every V8 since 9.1) is enabled for all; only the
+  // convolution uses it
+  const { error, stderr } = await asc.main([source, '-O3', '--runtime', 'stub', '--noAssert', '--enable', 'simd', '--outFile', 'out.wasm'], {
     writeFile(name, contents) { if (name.endsWith('.wasm')) binary = contents; },
   });
   if (error) throw new Error(`asc: ${error.message}\n${stderr.toString()}`);

@@ -1,3 +1,6 @@
+import { instantiateWasm } from '../wasm/instantiate.ts';
+import { CONVOLVE_WASM_BASE64 } from './wasm/convolve.wasm.ts';
+
 /** Normalised 1-D Gaussian taps for sigma (px), radius ceil(nSigma * sigma). */
 export function gaussianTaps(sigma: number, nSigma = 3): Float32Array {
   const r = Math.max(1, Math.ceil(nSigma * sigma));
@@ -29,6 +32,18 @@ export function convolveSeparable(src: Float32Array, width: number, height: numb
  * pixels within r of a border through the renormalising loop.
  */
 export function convolveBand(src: Float32Array, width: number, height: number, taps: Float32Array, y0: number, y1: number, out: Float32Array): void {
+  const k = convKernel();
+  if (k) {
+    // in chunks of rows, so the kernel's memory stays small (the halo rows are filtered twice)
+    let ok = true;
+    for (let c0 = y0; c0 < y1 && ok; c0 += WASM_ROWS) ok = convolveRowsWasm(k, src, width, height, taps, c0, Math.min(y1, c0 + WASM_ROWS), out);
+    if (ok) return;
+  }
+  convolveBandJs(src, width, height, taps, y0, y1, out);
+}
+
+/** convolveBand in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
+export function convolveBandJs(src: Float32Array, width: number, height: number, taps: Float32Array, y0: number, y1: number, out: Float32Array): void {
   const r = (taps.length - 1) >> 1;
   const n = 2 * r + 1;
   const t = Float64Array.from(taps);
@@ -98,6 +113,56 @@ function unrolled(r: number): Kernel {
   k = new Function('src', 'dst', 'from', 'to', 'step', 'shift', 't', lines.join('\n')) as Kernel;
   kernels.set(r, k);
   return k;
+}
+
+const WASM_ROWS = 256;
+
+interface ConvKernel {
+  memory: { buffer: ArrayBuffer };
+  base: number;
+  ensure: (bytes: number) => number;
+  run: (src: number, ya: number, rows: number, width: number, height: number, t: number, r: number, wx: number, ring: number, out: number, y0: number, y1: number) => void;
+}
+let convK: ConvKernel | null | undefined;
+
+/** The convolution compiled to WebAssembly with SIMD (wasm/convolve.as.ts), once per thread. */
+function convKernel(): ConvKernel | null {
+  if (convK !== undefined) return convK;
+  convK = null;
+  const e = instantiateWasm(CONVOLVE_WASM_BASE64, 'convolve');
+  if (!e) return null;
+  convK = {
+    memory: e.memory,
+    base: (e.heapBase as () => number)(),
+    ensure: e.ensure as (bytes: number) => number,
+    run: e.convolve as ConvKernel['run'],
+  };
+  return convK;
+}
+
+const align16 = (n: number) => (n + 15) & ~15;
+
+/** Rows [y0, y1) through the kernel: the rows they need copied in, the result copied out. */
+function convolveRowsWasm(k: ConvKernel, src: Float32Array, width: number, height: number, taps: Float32Array, y0: number, y1: number, out: Float32Array): boolean {
+  const r = (taps.length - 1) >> 1;
+  const n = 2 * r + 1;
+  const ya = Math.max(0, y0 - r);
+  const yb = Math.min(height, y1 + r);
+  const offT = 0;
+  const offWx = align16(offT + n * 8);
+  const offRing = align16(offWx + width * 8);
+  const offSrc = align16(offRing + 2 * n * width * 4);
+  const offOut = align16(offSrc + (yb - ya) * width * 4);
+  const bytes = offOut + (y1 - y0) * width * 4;
+  if (!k.ensure(bytes)) return false;
+  const buf = k.memory.buffer; // after ensure: growing replaces the buffer
+  const b = k.base;
+  new Float64Array(buf, b + offT, n).set(taps);
+  new Float64Array(buf, b + offWx, width).set(borderWeights(Float64Array.from(taps), width));
+  new Float32Array(buf, b + offSrc, (yb - ya) * width).set(src.subarray(ya * width, yb * width));
+  k.run(b + offSrc, ya, yb - ya, width, height, b + offT, r, b + offWx, b + offRing, b + offOut, y0, y1);
+  out.set(new Float32Array(buf, b + offOut, (y1 - y0) * width), y0 * width);
+  return true;
 }
 
 /** Sum of the taps that fall inside a row of this width, per output x (1 away from the borders). */

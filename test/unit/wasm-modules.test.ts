@@ -1,9 +1,12 @@
 // The engine's WebAssembly kernels: each committed module must be what its AssemblyScript
-// source compiles to (asc from the registry's assemblyscript package), and the sky kernel must
-// give exactly the statistics of its TypeScript reference (clippedStats in core/image/stats.ts).
+// source compiles to (asc from the registry's assemblyscript package), and the sky and filter
+// kernels must give exactly the results of their TypeScript references (clippedStats in
+// core/image/stats.ts, convolveBandJs in core/image/convolve.ts).
 // The PSF fit's equivalence is in stars-psf-fit-wasm.test.ts.
 import { describe, it, expect } from 'vitest';
 import { clippedStats } from '../../core/image/stats.ts';
+import { convolveBand, convolveBandJs, gaussianTaps } from '../../core/image/convolve.ts';
+import * as conv from '../../core/image/wasm/convolve.wasm.ts';
 import { instantiateWasm } from '../../core/wasm/instantiate.ts';
 import * as psf from '../../core/stars/wasm/psf-fit.wasm.ts';
 import * as sky from '../../core/image/wasm/sky-stats.wasm.ts';
@@ -14,6 +17,7 @@ import { compileWasm, sourceSha256, WASM_MODULES } from '../../bin/build-wasm.mj
 const committed: Record<string, { sha: string; b64: string }> = {
   PSF_FIT: { sha: psf.PSF_FIT_SOURCE_SHA256, b64: psf.PSF_FIT_WASM_BASE64 },
   SKY_STATS: { sha: sky.SKY_STATS_SOURCE_SHA256, b64: sky.SKY_STATS_WASM_BASE64 },
+  CONVOLVE: { sha: conv.CONVOLVE_SOURCE_SHA256, b64: conv.CONVOLVE_WASM_BASE64 },
 };
 
 describe('WebAssembly kernels', () => {
@@ -48,6 +52,20 @@ describe('WebAssembly kernels', () => {
       buf.set(vals);
       run(n, 3, 6);
       expect([out[0], out[1], out[2], out[3], out[4]]).toEqual([ref.level, ref.sigma, ref.mean, ref.median, ref.count]);
+    }
+  });
+
+  it('matched filter: the same filtered frame, bit for bit, as the TypeScript kernel (any size, taps, band)', () => {
+    const r = mulberry32(9);
+    for (const [w, h, sigma, y0, y1] of [[301, 611, 1.355, 0, 611], [301, 611, 2.2, 17, 300], [7, 5, 4, 0, 5], [5, 40, 0.6, 3, 39], [64, 600, 1.5, 250, 580]] as const) {
+      const src = Float32Array.from({ length: w * h }, () => 2000 * r() - 300);
+      const taps = gaussianTaps(sigma, 2.5);
+      const a = new Float32Array(w * h), b = new Float32Array(w * h);
+      convolveBand(src, w, h, taps, y0, y1, a);
+      convolveBandJs(src, w, h, taps, y0, y1, b);
+      let differing = 0;
+      for (let i = 0; i < a.length; i++) if (!Object.is(a[i], b[i])) differing++;
+      expect(differing).toBe(0);
     }
   });
 });
