@@ -14,6 +14,9 @@
  * HFD ~ FWHM sqrt(1 + 1/(6 s^2)), 0.5 % high at s = 4 px.
  */
 
+import { instantiateWasm } from '../wasm/instantiate.ts';
+import { HFD_WASM_BASE64 } from './wasm/hfd.wasm.ts';
+
 /**
  * Signed area of the disc x^2 + y^2 <= r^2 inside the rectangle [0, x] x [0, y]
  * (negative when x or y is negative), so that a rectangle's overlap follows by
@@ -84,6 +87,42 @@ export function halfFluxDiameter(stamp: Float32Array, w: number, h: number, x: n
  * bracket that holds r50; err(HFD) = 2 err(r50).
  */
 export function halfFluxDiameterWithError(stamp: Float32Array, variance: Float32Array | number | null, w: number, h: number, x: number, y: number, maxRadius: number, r50Guess?: number): { hfdPx: number; totalFlux: number; errPx: number } {
+  const k = hfdKernel();
+  if (!k || !(w > 0 && h > 0 && w * h <= k.stamp.length)) return halfFluxDiameterWithErrorJs(stamp, variance, w, h, x, y, maxRadius, r50Guess);
+  const n = w * h;
+  k.stamp.set(stamp.subarray(0, n));
+  let mode = 0, c = 0;
+  if (typeof variance === 'number') { mode = 1; c = variance; } else if (variance) { mode = 2; k.variance.set(variance.subarray(0, n)); }
+  k.run(w, h, x, y, maxRadius, mode, c, r50Guess !== undefined && r50Guess > 0 ? r50Guess : 0);
+  return { hfdPx: k.out[0], totalFlux: k.out[1], errPx: k.out[2] };
+}
+
+interface HfdKernel {
+  stamp: Float32Array;
+  variance: Float32Array;
+  out: Float64Array;
+  run: (w: number, h: number, x: number, y: number, maxRadius: number, varMode: number, constVar: number, r50Guess: number) => void;
+}
+let hfdK: HfdKernel | null | undefined;
+
+/** halfFluxDiameterWithErrorJs compiled to WebAssembly (wasm/hfd.as.ts), once per thread. */
+function hfdKernel(): HfdKernel | null {
+  if (hfdK !== undefined) return hfdK;
+  hfdK = null;
+  const e = instantiateWasm(HFD_WASM_BASE64, 'hfd');
+  if (!e) return null;
+  const cap = (e.capacity as () => number)();
+  hfdK = {
+    stamp: new Float32Array(e.memory.buffer, (e.stampPtr as () => number)(), cap),
+    variance: new Float32Array(e.memory.buffer, (e.variancePtr as () => number)(), cap),
+    out: new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 3),
+    run: e.hfd as HfdKernel['run'],
+  };
+  return hfdK;
+}
+
+/** halfFluxDiameterWithError in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
+export function halfFluxDiameterWithErrorJs(stamp: Float32Array, variance: Float32Array | number | null, w: number, h: number, x: number, y: number, maxRadius: number, r50Guess?: number): { hfdPx: number; totalFlux: number; errPx: number } {
   const nan = Number.NaN;
   if (!(maxRadius > 0) || !Number.isFinite(x) || !Number.isFinite(y)) return { hfdPx: nan, totalFlux: nan, errPx: nan };
   // Total flux, and the aperture variance sum when asked.

@@ -1,12 +1,15 @@
 // The engine's WebAssembly kernels: each committed module must be what its AssemblyScript
 // source compiles to (asc from the registry's assemblyscript package), and the sky and filter
 // kernels must give exactly the results of their TypeScript references (clippedStats in
-// core/image/stats.ts, convolveBandJs in core/image/convolve.ts).
+// core/image/stats.ts, convolveBandJs in core/image/convolve.ts), the half-flux diameter those
+// of halfFluxDiameterWithErrorJs to rounding (its asin and sqrt are the module's own).
 // The PSF fit's equivalence is in stars-psf-fit-wasm.test.ts.
 import { describe, it, expect } from 'vitest';
 import { clippedStats } from '../../core/image/stats.ts';
 import { convolveBand, convolveBandJs, gaussianTaps } from '../../core/image/convolve.ts';
 import * as conv from '../../core/image/wasm/convolve.wasm.ts';
+import * as hfd from '../../core/stars/wasm/hfd.wasm.ts';
+import { halfFluxDiameterWithError, halfFluxDiameterWithErrorJs } from '../../core/stars/hfd.ts';
 import { instantiateWasm } from '../../core/wasm/instantiate.ts';
 import * as psf from '../../core/stars/wasm/psf-fit.wasm.ts';
 import * as sky from '../../core/image/wasm/sky-stats.wasm.ts';
@@ -18,6 +21,7 @@ const committed: Record<string, { sha: string; b64: string }> = {
   PSF_FIT: { sha: psf.PSF_FIT_SOURCE_SHA256, b64: psf.PSF_FIT_WASM_BASE64 },
   SKY_STATS: { sha: sky.SKY_STATS_SOURCE_SHA256, b64: sky.SKY_STATS_WASM_BASE64 },
   CONVOLVE: { sha: conv.CONVOLVE_SOURCE_SHA256, b64: conv.CONVOLVE_WASM_BASE64 },
+  HFD: { sha: hfd.HFD_SOURCE_SHA256, b64: hfd.HFD_WASM_BASE64 },
 };
 
 describe('WebAssembly kernels', () => {
@@ -66,6 +70,29 @@ describe('WebAssembly kernels', () => {
       let differing = 0;
       for (let i = 0; i < a.length; i++) if (!Object.is(a[i], b[i])) differing++;
       expect(differing).toBe(0);
+    }
+  });
+
+  it('half-flux diameter: the TypeScript function\'s value, total and error (every variance form, with and without a guess)', () => {
+    const r = mulberry32(12);
+    const g = normal(mulberry32(13));
+    const W = 23;
+    for (let k = 0; k < 200; k++) {
+      const cx = 11 + r() - 0.5, cy = 11 + r() - 0.5, s = 0.8 + 3 * r();
+      const img = Float32Array.from({ length: W * W }, (_, i) => {
+        const x = i % W, y = Math.floor(i / W);
+        return 3000 * Math.exp(-((x - cx) ** 2 + (y - cy) ** 2) / (2 * s * s)) + 10 * g();
+      });
+      if (k % 9 === 0) img[5 * W + 6] = Number.NaN;
+      const variance = k % 3 === 0 ? null : k % 3 === 1 ? 100 : Float32Array.from(img, (v) => 100 + Math.max(0, v));
+      const guess = k % 2 === 0 ? 1.2 * s : undefined;
+      const rMax = 4 + 6.5 * r();
+      const a = halfFluxDiameterWithError(img, variance, W, W, cx, cy, rMax, guess);
+      const b = halfFluxDiameterWithErrorJs(img, variance, W, W, cx, cy, rMax, guess);
+      for (const key of ['hfdPx', 'totalFlux', 'errPx'] as const) {
+        if (Number.isNaN(b[key])) expect(a[key]).toBeNaN();
+        else expect(Math.abs(a[key] - b[key])).toBeLessThanOrEqual(1e-9 * Math.abs(b[key]));
+      }
     }
   });
 });
