@@ -13,6 +13,7 @@ const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 export const WASM_MODULES = [
   { source: 'core/stars/wasm/psf-fit.as.ts', module: 'core/stars/wasm/psf-fit.wasm.ts', name: 'PSF_FIT' },
   { source: 'core/image/wasm/sky-stats.as.ts', module: 'core/image/wasm/sky-stats.wasm.ts', name: 'SKY_STATS' },
+  { source: 'core/stars/wasm/moments.as.ts', module: 'core/stars/wasm/moments.wasm.ts', name: 'MOMENTS' },
   { source: 'core/stars/wasm/hfd.as.ts', module: 'core/stars/wasm/hfd.wasm.ts', name: 'HFD' },
   { source: 'core/image/wasm/convolve.as.ts', module: 'core/image/wasm/convolve.wasm.ts', name: 'CONVOLVE' },
 ].map((m) => ({ ...m, source: path.join(ROOT, m.source), module: path.join(ROOT, m.module) }));

@@ -10,6 +10,9 @@
  * star, pixel box included (+1/12 px^2 per axis for pixel-integrated data).
  */
 
+import { instantiateWasm } from '../wasm/instantiate.ts';
+import { MOMENTS_WASM_BASE64 } from './wasm/moments.wasm.ts';
+
 export interface AdaptiveMoments {
   x: number;
   y: number;
@@ -132,6 +135,42 @@ function pass(stamp: Float32Array, w: number, h: number, xc: number, yc: number,
  * converged = false (NaN where undefined).
  */
 export function adaptiveMoments(stamp: Float32Array, w: number, h: number, x0: number, y0: number, sigma0: number): AdaptiveMoments {
+  const k = momentsKernel();
+  if (!k || !(w > 0 && h > 0 && w * h <= k.stamp.length)) return adaptiveMomentsJs(stamp, w, h, x0, y0, sigma0);
+  k.stamp.set(stamp.subarray(0, w * h));
+  k.moments(w, h, x0, y0, sigma0);
+  const o = k.out;
+  return { x: o[0], y: o[1], ixx: o[2], iyy: o[3], ixy: o[4], e1: o[5], e2: o[6], flux: o[7], comaX: o[8], comaY: o[9], converged: o[10] === 1, iterations: o[11] };
+}
+
+interface MomentsKernel {
+  stamp: Float32Array;
+  variance: Float32Array;
+  out: Float64Array;
+  moments: (w: number, h: number, x0: number, y0: number, sigma0: number) => void;
+  errors: (w: number, h: number, varMode: number, constVar: number, x: number, y: number, ixx: number, iyy: number, ixy: number) => void;
+}
+let momK: MomentsKernel | null | undefined;
+
+/** adaptiveMomentsJs and adaptiveMomentErrorsJs compiled to WebAssembly (wasm/moments.as.ts), once per thread. */
+function momentsKernel(): MomentsKernel | null {
+  if (momK !== undefined) return momK;
+  momK = null;
+  const e = instantiateWasm(MOMENTS_WASM_BASE64, 'moments');
+  if (!e) return null;
+  const cap = (e.capacity as () => number)();
+  momK = {
+    stamp: new Float32Array(e.memory.buffer, (e.stampPtr as () => number)(), cap),
+    variance: new Float32Array(e.memory.buffer, (e.variancePtr as () => number)(), cap),
+    out: new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 16),
+    moments: e.moments as MomentsKernel['moments'],
+    errors: e.momentErrors as MomentsKernel['errors'],
+  };
+  return momK;
+}
+
+/** adaptiveMoments in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
+export function adaptiveMomentsJs(stamp: Float32Array, w: number, h: number, x0: number, y0: number, sigma0: number): AdaptiveMoments {
   let xc = x0, yc = y0;
   const s0 = Number.isFinite(sigma0) && sigma0 > 0.3 ? sigma0 : 1.5;
   let wxx = s0 * s0, wyy = s0 * s0, wxy = 0;
@@ -228,6 +267,18 @@ export function weightedMoments(stamp: Float32Array, w: number, h: number, xc: n
  * is exact for a Gaussian star.
  */
 export function adaptiveMomentErrors(stamp: Float32Array, variance: Float32Array | number, w: number, h: number, m: AdaptiveMoments): { x: number; y: number; e1: number; e2: number } {
+  const k = momentsKernel();
+  if (!k || !(w > 0 && h > 0 && w * h <= k.stamp.length)) return adaptiveMomentErrorsJs(stamp, variance, w, h, m);
+  k.stamp.set(stamp.subarray(0, w * h));
+  let mode = 1, c = 0;
+  if (typeof variance === 'number') c = variance; else { mode = 2; k.variance.set(variance.subarray(0, w * h)); }
+  k.errors(w, h, mode, c, m.x, m.y, m.ixx, m.iyy, m.ixy);
+  const o = k.out;
+  return { x: o[12], y: o[13], e1: o[14], e2: o[15] };
+}
+
+/** adaptiveMomentErrors in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
+export function adaptiveMomentErrorsJs(stamp: Float32Array, variance: Float32Array | number, w: number, h: number, m: AdaptiveMoments): { x: number; y: number; e1: number; e2: number } {
   const nan = Number.NaN;
   const det = m.ixx * m.iyy - m.ixy * m.ixy;
   if (!(det > 0) || !Number.isFinite(m.x) || !Number.isFinite(m.y)) return { x: nan, y: nan, e1: nan, e2: nan };

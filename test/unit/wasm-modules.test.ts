@@ -2,13 +2,16 @@
 // source compiles to (asc from the registry's assemblyscript package), and the sky and filter
 // kernels must give exactly the results of their TypeScript references (clippedStats in
 // core/image/stats.ts, convolveBandJs in core/image/convolve.ts), the half-flux diameter those
-// of halfFluxDiameterWithErrorJs to rounding (its asin and sqrt are the module's own).
+// of halfFluxDiameterWithErrorJs and the adaptive moments those of adaptiveMomentsJs to rounding
+// (their exp, asin and sqrt are the module's own).
 // The PSF fit's equivalence is in stars-psf-fit-wasm.test.ts.
 import { describe, it, expect } from 'vitest';
 import { clippedStats } from '../../core/image/stats.ts';
 import { convolveBand, convolveBandJs, gaussianTaps } from '../../core/image/convolve.ts';
 import * as conv from '../../core/image/wasm/convolve.wasm.ts';
 import * as hfd from '../../core/stars/wasm/hfd.wasm.ts';
+import * as mom from '../../core/stars/wasm/moments.wasm.ts';
+import { adaptiveMoments, adaptiveMomentsJs, adaptiveMomentErrors, adaptiveMomentErrorsJs } from '../../core/stars/moments.ts';
 import { halfFluxDiameterWithError, halfFluxDiameterWithErrorJs } from '../../core/stars/hfd.ts';
 import { instantiateWasm } from '../../core/wasm/instantiate.ts';
 import * as psf from '../../core/stars/wasm/psf-fit.wasm.ts';
@@ -22,6 +25,7 @@ const committed: Record<string, { sha: string; b64: string }> = {
   SKY_STATS: { sha: sky.SKY_STATS_SOURCE_SHA256, b64: sky.SKY_STATS_WASM_BASE64 },
   CONVOLVE: { sha: conv.CONVOLVE_SOURCE_SHA256, b64: conv.CONVOLVE_WASM_BASE64 },
   HFD: { sha: hfd.HFD_SOURCE_SHA256, b64: hfd.HFD_WASM_BASE64 },
+  MOMENTS: { sha: mom.MOMENTS_SOURCE_SHA256, b64: mom.MOMENTS_WASM_BASE64 },
 };
 
 describe('WebAssembly kernels', () => {
@@ -94,5 +98,39 @@ describe('WebAssembly kernels', () => {
         else expect(Math.abs(a[key] - b[key])).toBeLessThanOrEqual(1e-9 * Math.abs(b[key]));
       }
     }
+  });
+
+  it('adaptive moments and their errors: the TypeScript functions\' values (round, elongated, coma-like, faint, missing pixels)', () => {
+    const r = mulberry32(14);
+    const g = normal(mulberry32(15));
+    const W = 25;
+    let converged = 0;
+    for (let k = 0; k < 200; k++) {
+      const cx = 12 + r() - 0.5, cy = 12 + r() - 0.5, s1 = 1 + 2.5 * r(), q = 0.5 + 0.5 * r(), th = Math.PI * r();
+      const amp = [30, 300, 3000][k % 3];
+      const c = Math.cos(th), sn = Math.sin(th);
+      const img = Float32Array.from({ length: W * W }, (_, i) => {
+        const x = i % W - cx, y = Math.floor(i / W) - cy;
+        const u = (x * c + y * sn) / s1, v = (-x * sn + y * c) / (s1 * q);
+        const tail = k % 4 === 0 ? 0.3 * Math.exp(-((u - 1.5) ** 2 + v * v) / 2) : 0; // a one-sided flare
+        return amp * (Math.exp(-0.5 * (u * u + v * v)) + tail) + 10 * g();
+      });
+      if (k % 7 === 0) img[4 * W + 3] = Number.NaN;
+      const a = adaptiveMoments(img, W, W, 12, 12, 1.5);
+      const b = adaptiveMomentsJs(img, W, W, 12, 12, 1.5);
+      expect(a.converged).toBe(b.converged);
+      // the last bits of exp can move the stop (1e-4 px, 1e-5 of the trace) by one step
+      expect(Math.abs(a.iterations - b.iterations)).toBeLessThanOrEqual(1);
+      if (!b.converged) continue;
+      converged++;
+      const tol = a.iterations === b.iterations ? 1e-9 : 1e-4;
+      for (const key of ['x', 'y', 'ixx', 'iyy', 'ixy', 'e1', 'e2', 'flux', 'comaX', 'comaY'] as const) {
+        expect(Math.abs(a[key] - b[key])).toBeLessThanOrEqual(tol * Math.max(1, Math.abs(b[key])));
+      }
+      const variance = k % 2 ? 100 : Float32Array.from(img, (v) => 100 + Math.max(0, v));
+      const ea = adaptiveMomentErrors(img, variance, W, W, b), eb = adaptiveMomentErrorsJs(img, variance, W, W, b);
+      for (const key of ['x', 'y', 'e1', 'e2'] as const) expect(Math.abs(ea[key] - eb[key])).toBeLessThanOrEqual(1e-9 * Math.abs(eb[key]));
+    }
+    expect(converged).toBeGreaterThan(150);
   });
 });
