@@ -111,22 +111,9 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
       if (v > best && (x - cx0) ** 2 + (y - cy0) ** 2 <= rs * rs) { best = v; px = x; py = y; }
     }
   }
-  // The mesh sky misses structure smaller than its boxes (nebulosity, a galaxy's halo), and an
-  // offset left under a star widens its moments, the sizes the field map reads. The ring at the
-  // stamp's edge gives the local level (common practice: an annulus background); it is taken
-  // off when it differs from the mesh sky by more than 4 standard errors of a median
-  // (1.2533 sigma / sqrt n), so on a well-modelled sky the moments see the stamp as it is.
   let momStamp = stamp;
-  const edgeR = Math.min(px + 0.5, w - 0.5 - px, py + 0.5, h - 0.5 - py);
-  if (edgeR > 6) {
-    const ring = ringLevel(stamp, w, h, px, py, edgeR);
-    if (ring.n >= 12 && Math.abs(ring.level) > (4 * 1.2533 * Math.sqrt(skyVar)) / Math.sqrt(ring.n)) {
-      if (MOMS.length < n) MOMS = new Float32Array(Math.max(n, 2 * MOMS.length));
-      momStamp = minus(stamp, ring.level, MOMS.subarray(0, n));
-    }
-  }
-  const mom = adaptiveMoments(momStamp, w, h, px, py, sigmaGuess);
-  const momOk = mom.converged && mom.flux > 0 && mom.ixx > 0 && mom.iyy > 0;
+  let mom = adaptiveMoments(momStamp, w, h, px, py, sigmaGuess);
+  let momOk = mom.converged && mom.flux > 0 && mom.ixx > 0 && mom.iyy > 0;
 
   // Per-pixel variance (module scratch).
   if (VAR.length < n) VAR = new Float32Array(Math.max(n, 2 * VAR.length));
@@ -163,6 +150,22 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
   } else if (gOk) fit = fitG;
   else if (mOk) fit = fitM;
   if (!fit) addFlag(flags, 'fit-failed');
+  // The mesh sky misses structure smaller than its boxes (nebulosity, a galaxy's halo), and an
+  // offset left under a star widens its moments, the sizes the field map reads. The fit's
+  // background term is that local level, free of the star's own wings (the profile is fitted
+  // with it); where it differs from zero by more than 3 of its standard errors (about
+  // sigma / sqrt(pixels fitted)), the moments are measured again on the stamp less it.
+  // (A large offset can keep the first moments from converging at all: they restart from the fit.)
+  if (fit && fit.background !== 0) {
+    const nFit = fit === fitG ? (rG as { nPixels: number }).nPixels : (rM as { nPixels: number }).nPixels;
+    if (nFit > 0 && Math.abs(fit.background) > (3 * Math.sqrt(skyVar)) / Math.sqrt(nFit)) {
+      if (MOMS.length < n) MOMS = new Float32Array(Math.max(n, 2 * MOMS.length));
+      const lifted = minus(stamp, fit.background, MOMS.subarray(0, n));
+      const s0 = momOk ? Math.sqrt(0.5 * (mom.ixx + mom.iyy)) : Math.sqrt(fit.fwhmMajorPx * fit.fwhmMinorPx) / FWHM_PER_SIGMA;
+      const again = adaptiveMoments(lifted, w, h, momOk ? mom.x : fit.x, momOk ? mom.y : fit.y, s0);
+      if (again.converged && again.flux > 0 && again.ixx > 0 && again.iyy > 0) { mom = again; momStamp = lifted; momOk = true; }
+    }
+  }
 
   // Centre for HFD and as fallback position.
   const hx = momOk ? mom.x : fit ? fit.x : px;

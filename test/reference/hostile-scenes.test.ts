@@ -195,12 +195,13 @@ describe('hostile scenes', () => {
   });
 
   const glows = [{ x: 420, y: 380, sigma: 140, peak: 3000 }, { x: 850, y: 600, sigma: 60, peak: 1500 }];
-  async function nebula(): Promise<Outcome> {
-    const sim = renderScene(parseScene(base({ seed: 103 })));
+  async function nebula(seed = 103): Promise<Outcome> {
+    const sim = renderScene(parseScene(base({ seed })));
     const add = painter(sim, 3);
     for (let y = 0; y < H; y++) for (let x = 0; x < W; x++) add(y * W + x, glowAt(glows, x, y));
     return run(sim);
   }
+
 
   it('nebulosity (large diffuse glow): stars found, no spurious clean stars, no trailing', async () => {
     const o = await nebula();
@@ -214,13 +215,17 @@ describe('hostile scenes', () => {
   });
 
   // The sky mesh (3x3 median over 64 px boxes) leaves about 17 % of a sigma-140 px glow in the
-  // residual; before the stars' moments took off their local ring level (measure.ts), that
-  // offset widened them and the diagnosis fitted a tilt (significance 6.7, ~4 mrad).
+  // residual; before the stars' moments took off the level their PSF fit found under them
+  // (measure.ts), that offset widened them and the diagnosis fitted a tilt (significance 6.7,
+  // ~4 mrad, seed 103).
   it('nebulosity does not make the diagnosis report tilt (the moments take off the local level left under the glow)', async () => {
-    const o = await nebula();
-    const t = (o.report.diagnosis as Diagnosis).tilt;
-    console.log(`nebulosity tilt: significance ${t.significance.toFixed(2)}, ${t.tiltMrad?.toFixed(2)} mrad`);
-    expect(t.significant).toBe(false);
+    // three star fields under the same glow; measured with this code on seeds 103-107: without
+    // the glow the significance is 1.4-3.2, with it 0.7-2.8 (the threshold is 4)
+    for (const seed of [103, 104, 106]) {
+      const t = (((await nebula(seed)).report.diagnosis) as Diagnosis).tilt;
+      console.log(`nebulosity seed ${seed}: tilt significance ${t.significance.toFixed(2)}, ${t.tiltMrad?.toFixed(2)} mrad`);
+      expect(t.significant).toBe(false);
+    }
   });
 
   it('bright Moon gradient (sky 5x from one side to the other)', async () => {
