@@ -1,5 +1,5 @@
 import { clippedStats, median, type ClippedStats } from './stats.ts';
-import { instantiateWasm } from '../wasm/instantiate.ts';
+import { lazyKernel } from '../wasm/instantiate.ts';
 import { SKY_STATS_WASM_BASE64 } from './wasm/sky-stats.wasm.ts';
 
 /**
@@ -89,30 +89,21 @@ export function meshRowStats(data: Float32Array, width: number, height: number, 
 }
 
 interface SkyKernel { samples: Float32Array; clipped: (buf: Float32Array, n: number) => ClippedStats }
-let skyK: SkyKernel | null | undefined;
-
 /**
  * clippedStats compiled to WebAssembly (wasm/sky-stats.as.ts, the same algorithm; stats.ts
  * stays the reference), once per thread; null where WebAssembly is unavailable.
  */
-function skyKernel(): SkyKernel | null {
-  if (skyK !== undefined) return skyK;
-  skyK = null;
-  const e = instantiateWasm(SKY_STATS_WASM_BASE64, 'sky-stats');
-  if (!e) return null;
-  const cap = (e.capacity as () => number)();
-  const samples = new Float32Array(e.memory.buffer, (e.samplesPtr as () => number)(), cap);
-  const out = new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 5);
-  const run = e.clipped as (n: number, kappa: number, maxIter: number) => void;
-  skyK = {
-    samples,
+const skyKernel = lazyKernel<SkyKernel>(SKY_STATS_WASM_BASE64, 'sky-stats', (m) => {
+  const out = m.f64('outPtr', 5);
+  const run = m.fn<(n: number, kappa: number, maxIter: number) => void>('clipped');
+  return {
+    samples: m.f32('samplesPtr', m.int('capacity')),
     clipped: (_buf, n) => {
       run(n, 3, 6);
       return { level: out[0], sigma: out[1], mean: out[2], median: out[3], count: out[4] };
     },
   };
-  return skyK;
-}
+});
 
 export function estimateSky(data: Float32Array, width: number, height: number, opts: BackgroundOptions = {}): SkyModel {
   const g = meshGeometry(width, height, opts);

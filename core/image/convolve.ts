@@ -1,4 +1,4 @@
-import { instantiateWasm } from '../wasm/instantiate.ts';
+import { lazyKernel } from '../wasm/instantiate.ts';
 import { CONVOLVE_WASM_BASE64 } from './wasm/convolve.wasm.ts';
 
 /** Normalised 1-D Gaussian taps for sigma (px), radius ceil(nSigma * sigma). */
@@ -123,22 +123,10 @@ interface ConvKernel {
   ensure: (bytes: number) => number;
   run: (src: number, ya: number, rows: number, width: number, height: number, t: number, r: number, wx: number, ring: number, out: number, y0: number, y1: number) => void;
 }
-let convK: ConvKernel | null | undefined;
-
 /** The convolution compiled to WebAssembly with SIMD (wasm/convolve.as.ts), once per thread. */
-function convKernel(): ConvKernel | null {
-  if (convK !== undefined) return convK;
-  convK = null;
-  const e = instantiateWasm(CONVOLVE_WASM_BASE64, 'convolve');
-  if (!e) return null;
-  convK = {
-    memory: e.memory,
-    base: (e.heapBase as () => number)(),
-    ensure: e.ensure as (bytes: number) => number,
-    run: e.convolve as ConvKernel['run'],
-  };
-  return convK;
-}
+const convKernel = lazyKernel<ConvKernel>(CONVOLVE_WASM_BASE64, 'convolve', (m) => ({
+  memory: m.memory, base: m.int('heapBase'), ensure: m.fn('ensure'), run: m.fn('convolve'),
+}));
 
 const align16 = (n: number) => (n + 15) & ~15;
 

@@ -14,7 +14,7 @@
  * HFD ~ FWHM sqrt(1 + 1/(6 s^2)), 0.5 % high at s = 4 px.
  */
 
-import { instantiateWasm } from '../wasm/instantiate.ts';
+import { lazyKernel } from '../wasm/instantiate.ts';
 import { HFD_WASM_BASE64 } from './wasm/hfd.wasm.ts';
 
 /**
@@ -103,23 +103,11 @@ interface HfdKernel {
   out: Float64Array;
   run: (w: number, h: number, x: number, y: number, maxRadius: number, varMode: number, constVar: number, r50Guess: number) => void;
 }
-let hfdK: HfdKernel | null | undefined;
-
 /** halfFluxDiameterWithErrorJs compiled to WebAssembly (wasm/hfd.as.ts), once per thread. */
-function hfdKernel(): HfdKernel | null {
-  if (hfdK !== undefined) return hfdK;
-  hfdK = null;
-  const e = instantiateWasm(HFD_WASM_BASE64, 'hfd');
-  if (!e) return null;
-  const cap = (e.capacity as () => number)();
-  hfdK = {
-    stamp: new Float32Array(e.memory.buffer, (e.stampPtr as () => number)(), cap),
-    variance: new Float32Array(e.memory.buffer, (e.variancePtr as () => number)(), cap),
-    out: new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 3),
-    run: e.hfd as HfdKernel['run'],
-  };
-  return hfdK;
-}
+const hfdKernel = lazyKernel<HfdKernel>(HFD_WASM_BASE64, 'hfd', (m) => {
+  const cap = m.int('capacity');
+  return { stamp: m.f32('stampPtr', cap), variance: m.f32('variancePtr', cap), out: m.f64('outPtr', 3), run: m.fn('hfd') };
+});
 
 /** halfFluxDiameterWithError in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
 export function halfFluxDiameterWithErrorJs(stamp: Float32Array, variance: Float32Array | number | null, w: number, h: number, x: number, y: number, maxRadius: number, r50Guess?: number): { hfdPx: number; totalFlux: number; errPx: number } {

@@ -10,7 +10,7 @@
  * star, pixel box included (+1/12 px^2 per axis for pixel-integrated data).
  */
 
-import { instantiateWasm } from '../wasm/instantiate.ts';
+import { lazyKernel } from '../wasm/instantiate.ts';
 import { MOMENTS_WASM_BASE64 } from './wasm/moments.wasm.ts';
 
 export interface AdaptiveMoments {
@@ -150,24 +150,11 @@ interface MomentsKernel {
   moments: (w: number, h: number, x0: number, y0: number, sigma0: number) => void;
   errors: (w: number, h: number, varMode: number, constVar: number, x: number, y: number, ixx: number, iyy: number, ixy: number) => void;
 }
-let momK: MomentsKernel | null | undefined;
-
 /** adaptiveMomentsJs and adaptiveMomentErrorsJs compiled to WebAssembly (wasm/moments.as.ts), once per thread. */
-function momentsKernel(): MomentsKernel | null {
-  if (momK !== undefined) return momK;
-  momK = null;
-  const e = instantiateWasm(MOMENTS_WASM_BASE64, 'moments');
-  if (!e) return null;
-  const cap = (e.capacity as () => number)();
-  momK = {
-    stamp: new Float32Array(e.memory.buffer, (e.stampPtr as () => number)(), cap),
-    variance: new Float32Array(e.memory.buffer, (e.variancePtr as () => number)(), cap),
-    out: new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 16),
-    moments: e.moments as MomentsKernel['moments'],
-    errors: e.momentErrors as MomentsKernel['errors'],
-  };
-  return momK;
-}
+const momentsKernel = lazyKernel<MomentsKernel>(MOMENTS_WASM_BASE64, 'moments', (m) => {
+  const cap = m.int('capacity');
+  return { stamp: m.f32('stampPtr', cap), variance: m.f32('variancePtr', cap), out: m.f64('outPtr', 16), moments: m.fn('moments'), errors: m.fn('momentErrors') };
+});
 
 /** adaptiveMoments in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
 export function adaptiveMomentsJs(stamp: Float32Array, w: number, h: number, x0: number, y0: number, sigma0: number): AdaptiveMoments {

@@ -28,7 +28,7 @@
 
 import type { PsfFit } from './types.ts';
 import { PSF_FIT_WASM_BASE64 } from './wasm/psf-fit.wasm.ts';
-import { instantiateWasm } from '../wasm/instantiate.ts';
+import { lazyKernel } from '../wasm/instantiate.ts';
 
 export interface FitOptions {
   model: 'gaussian' | 'moffat';
@@ -345,28 +345,18 @@ interface WasmKernel {
   fit: (w: number, h: number, moffat: number, maxIter: number, radius: number, constVar: number,
     ix: number, iy: number, ixx: number, iyy: number, ixy: number, amp: number, bg: number) => number;
 }
-let kernel: WasmKernel | null | undefined;
-
 /**
  * The fit's loop compiled to WebAssembly (wasm/psf-fit.as.ts, the same algorithm as
- * fitPsfWithSnrJs below), instantiated once per thread; null where WebAssembly is unavailable
- * or SKYLOUPE_WASM=0 / SKYLOUPE_PSF_FIT=js asks for the TypeScript loop.
+ * fitPsfWithSnrJs below), once per thread; null where WebAssembly is unavailable or
+ * SKYLOUPE_WASM=0 / SKYLOUPE_PSF_FIT=js asks for the TypeScript loop.
  */
+const psfKernel = lazyKernel<WasmKernel>(PSF_FIT_WASM_BASE64, 'psf-fit', (m) => {
+  const cap = m.int('capacity');
+  return { capacity: cap, stamp: m.f32('stampPtr', cap), variance: m.f32('variancePtr', cap), out: m.f64('outPtr', 80), fit: m.fn('fit') };
+});
+const PSF_FIT_JS = typeof process !== 'undefined' && process.env?.SKYLOUPE_PSF_FIT === 'js';
 function wasmKernel(): WasmKernel | null {
-  if (kernel !== undefined) return kernel;
-  kernel = null;
-  if (typeof process !== 'undefined' && process.env?.SKYLOUPE_PSF_FIT === 'js') return null;
-  const e = instantiateWasm(PSF_FIT_WASM_BASE64, 'psf-fit');
-  if (!e) return null;
-  const cap = (e.capacity as () => number)();
-  kernel = {
-    capacity: cap,
-    stamp: new Float32Array(e.memory.buffer, (e.stampPtr as () => number)(), cap),
-    variance: new Float32Array(e.memory.buffer, (e.variancePtr as () => number)(), cap),
-    out: new Float64Array(e.memory.buffer, (e.outPtr as () => number)(), 80),
-    fit: e.fit as WasmKernel['fit'],
-  };
-  return kernel;
+  return PSF_FIT_JS ? null : psfKernel();
 }
 
 /** fitPsfWithSnr through the WebAssembly loop; start values and the derived quantities here. */
