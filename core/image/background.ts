@@ -245,7 +245,6 @@ export function subtractSkyRows(data: Float32Array, model: SkyModel, y0: number,
     ixOf[x] = ix;
     txOf[x] = meshW > 1 ? fx - ix : 0;
   }
-  const lvl = new Float64Array(width);
   for (let y = y0; y < y1; y++) {
     // interpolate the mesh to this row once, then along x
     const fy = ((y + 0.5) * meshH) / height - 0.5;
@@ -253,16 +252,16 @@ export function subtractSkyRows(data: Float32Array, model: SkyModel, y0: number,
     const iy1 = meshH > 1 ? iy + 1 : iy;
     const ty = meshH > 1 ? fy - iy : 0;
     for (let i = 0; i < meshW; i++) rowLevel[i] = meshLevel[iy * meshW + i] * (1 - ty) + meshLevel[iy1 * meshW + i] * ty;
-    if (meshW > 1) {
-      for (let x = 0; x < width; x++) {
-        const ix = ixOf[x];
-        lvl[x] = rowLevel[ix] + (rowLevel[ix + 1] - rowLevel[ix]) * txOf[x];
-      }
-    } else lvl.fill(rowLevel[0]);
     const row = y * width;
+    const flat = meshW > 1 ? 0 : rowLevel[0];
     for (let x = 0; x < width; x++) {
+      let lvl = flat;
+      if (meshW > 1) {
+        const ix = ixOf[x];
+        lvl = rowLevel[ix] + (rowLevel[ix + 1] - rowLevel[ix]) * txOf[x];
+      }
       const v = data[row + x];
-      if (v === v) out[row + x] = v - lvl[x];
+      if (v === v) out[row + x] = v - lvl;
       else {
         out[row + x] = 0;
         if (!missing) missing = missingOut ?? new Uint8Array(width * height);
