@@ -263,13 +263,13 @@ export function levenbergMarquardt(problem: LmProblem, start: ArrayLike<number>,
         step[a] = s;
       }
       const trial = params.map((v, k) => v + step[k]);
-      // the normal equations come with the trial's chi2 (one pass over the data, not two):
-      // most trials are accepted, and a rejected one only wastes its accumulation
-      const next = evaluate(trial, true);
+      // chi2 alone for the trial; the normal equations only once it is accepted (taking them
+      // with every trial was measured no faster on 24 MP and 10 % slower on the demo frame)
+      const next = evaluate(trial, false);
       if (next.chi2 < cur.chi2) {
         const rel = (cur.chi2 - next.chi2) / Math.max(1e-300, cur.chi2);
         params = trial;
-        cur = next;
+        cur = evaluate(params, true);
         lambda = Math.max(1e-9, lambda / 10);
         improved = true;
         if (rel < 1e-7) done = true;
