@@ -246,12 +246,14 @@ function flagStreaks(cands: Candidate[], peaks: Peak[], f: Float32Array, width: 
   const angle = new Float64Array(cands.length).fill(NaN); // trail direction, rad
   // angle steps fine enough that the farthest sample stays within 1 px of the line
   const ANGLES = Math.ceil((Math.PI * 3 * d) / 2);
+  const COS = Float64Array.from({ length: ANGLES }, (_, k) => Math.cos((k * Math.PI) / ANGLES));
+  const SIN = Float64Array.from({ length: ANGLES }, (_, k) => Math.sin((k * Math.PI) / ANGLES));
   for (let i = 0; i < peaks.length; i++) {
     const p = peaks[i];
     for (let k = 0; k < ANGLES; k++) {
       const a = (k * Math.PI) / ANGLES;
-      const c = Math.cos(a);
-      const s = Math.sin(a);
+      const c = COS[k];
+      const s = SIN[k];
       // a trail runs off the frame: samples outside it do not count against, but at least
       // one full side lies inside
       let along = true;
