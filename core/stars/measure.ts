@@ -48,6 +48,9 @@ let MOMS = new Float32Array(0); // the moments' sky-subtracted stamp
  * the adaptive moments (a model rather than the noisy data, which would bias the fit low);
  * without a gain, sky variance only. Missing pixels get no weight.
  *
+ * Moments: adaptive, on the stamp as given; measured again on the stamp less the chosen fit's
+ * background where that background is significant (sky the mesh missed, see below).
+ *
  * Fits: started from the adaptive moments (the Moffat from the Gaussian fit's shape), over
  * the pixels within max(4, 2.5 x start FWHM along the major axis) of the moments centre, the
  * same pixels for both models. The models are evaluated at pixel centres, so FWHMs describe
