@@ -7,7 +7,7 @@ import path from 'node:path';
 import os from 'node:os';
 import { renderScene } from '../../core/simulate/render.ts';
 import { fitsBytes } from '../../core/simulate/write.ts';
-import { parseScene } from '../../core/simulate/scene.ts';
+import { benchScene } from './scene.ts';
 
 const dir = path.resolve('test-output/bench');
 mkdirSync(dir, { recursive: true });
@@ -16,15 +16,7 @@ const height = 8333; // the simulator caps frames at 1e8 pixels
 const file = path.join(dir, `scale-${width}x${height}.fits`);
 if (!existsSync(file)) {
   const t = performance.now();
-  const res = renderScene(parseScene({
-    width, height, seed: 20261202,
-    optics: { pixelSizeUm: 3.76, focalLengthMm: 400, fNumber: 4 },
-    stars: { count: 20000, fluxMinE: 3000, fluxMaxE: 400000, minSeparationPx: 10 },
-    psf: { kind: 'analytic', model: 'moffat', fwhmMajorPx: 3, fwhmMinorPx: 2.7, beta: 3.5, vary: { fwhmMajorPx: [2.6, 3.6], axisRatio: [0.8, 1], thetaDeg: [-90, 90] } },
-    sky: { level: 900, gradientX: 120, gradientY: -60 },
-    noise: { gain: 1, readNoiseE: 3, biasAdu: 500 },
-    hotPixels: { count: 500, minAdu: 2000, maxAdu: 20000 },
-  }));
+  const res = renderScene(benchScene(width, height, 20000, 500, 20261202));
   writeFileSync(file, fitsBytes(res));
   process.stdout.write(`(rendered ${path.basename(file)} in ${((performance.now() - t) / 1000).toFixed(1)} s)\n`);
 }

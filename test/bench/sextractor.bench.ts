@@ -9,7 +9,7 @@ import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { renderScene, type SimTruthStar } from '../../core/simulate/render.ts';
-import { parseScene } from '../../core/simulate/scene.ts';
+import { benchScene } from './scene.ts';
 import { fitsBytes } from '../../core/simulate/write.ts';
 import { matchStars, median, requireSextractor, runSextractor } from '../reference/crosscheck-sextractor.ts';
 
@@ -23,16 +23,8 @@ const file = path.join(dir, `sx-bench-${W}x${H}.fits`);
 const truthFile = path.join(dir, `sx-bench-${W}x${H}.truth.json`);
 if (!existsSync(file) || !existsSync(truthFile)) {
   const t = performance.now();
-  // The scene of pipeline.bench.ts (same density of stars, Moffat PSFs, gradient, hot pixels).
-  const res = renderScene(parseScene({
-    width: W, height: H, seed: 20261201,
-    optics: { pixelSizeUm: 3.76, focalLengthMm: 400, fNumber: 4 },
-    stars: { count: 4000, fluxMinE: 3000, fluxMaxE: 400000, minSeparationPx: 10 },
-    psf: { kind: 'analytic', model: 'moffat', fwhmMajorPx: 3, fwhmMinorPx: 2.7, beta: 3.5, vary: { fwhmMajorPx: [2.6, 3.6], axisRatio: [0.8, 1], thetaDeg: [-90, 90] } },
-    sky: { level: 900, gradientX: 120, gradientY: -60 },
-    noise: { gain: 1, readNoiseE: 3, biasAdu: 500 },
-    hotPixels: { count: 300, minAdu: 2000, maxAdu: 20000 },
-  }));
+  // The scene of pipeline.bench.ts (scene.ts), at 24 MP.
+  const res = renderScene(benchScene(W, H, 4000, 300));
   writeFileSync(file, fitsBytes(res));
   writeFileSync(truthFile, JSON.stringify(res.truth.stars));
   process.stdout.write(`(rendered ${path.basename(file)} in ${((performance.now() - t) / 1000).toFixed(1)} s)\n`);

@@ -4,7 +4,7 @@
  */
 import type { Report } from '../types.ts';
 import type { Theme } from './theme.ts';
-import { elongationFromDistortion, elongationFromEllipticity, emptyFigure, fieldOf, frameMap, num, r2, svgOpen, text, type FrameMap } from './util.ts';
+import { elongationFromDistortion, elongationFromEllipticity, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, type FrameMap } from './util.ts';
 
 export interface ShapeOptions {
   theme: Theme;
@@ -54,27 +54,24 @@ export function shapeSvg(report: Report, opts: ShapeOptions): string {
   const mode = opts.mode ?? (field ? 'zones' : 'stars');
   const width = opts.width ?? 900;
   const keyW = 170;
-  const top = 34;
-  const W = report.frame.width;
-  const H = report.frame.height;
-  const s = (width - keyW - 20) / W;
-  const plotH = H * s;
+  const top = TITLE_H;
+  const { m, plotW, plotH } = frameBesideKey(report, width, keyW);
+  const s = m.s;
   const height = Math.max(plotH + top + 12, 260);
   const vectors = shapeVectors(report, mode, opts.maxStars);
   const label = `Shape map (${mode === 'zones' ? 'per zone' : 'per star'})`;
   if (vectors.length === 0) {
     return emptyFigure(width, height, label, mode === 'zones' ? 'no field map in this report' : 'no clean stars to draw', theme);
   }
-  const m = frameMap(report, s, 10, top);
   // line length for a/b = 1.2: about 90 % of the spacing between vectors
   const spacing = mode === 'zones' && field
     ? Math.min(field.grid.cellWidthPx, field.grid.cellHeightPx) * s
-    : Math.sqrt((W * s * plotH) / vectors.length);
+    : Math.sqrt((plotW * plotH) / vectors.length);
   const k = (0.9 * spacing) / 0.2;
   let out = svgOpen(width, height, label, theme, 'shape-svg');
   out = out.replace('<svg ', `<svg data-vectors="${vectors.length}" data-mode="${mode}" `);
   out += text(10, 20, label, theme, { size: 14, weight: '600' });
-  out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(W * s)}" height="${r2(plotH)}" fill="${theme.panel}" stroke="${theme.frame}" stroke-width="1"/>`;
+  out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}" fill="${theme.panel}" stroke="${theme.frame}" stroke-width="1"/>`;
   if (mode === 'zones' && field) {
     for (const c of field.grid.cells) {
       const x0 = m.x(c.bounds.x0 - 0.5);
@@ -87,7 +84,7 @@ export function shapeSvg(report: Report, opts: ShapeOptions): string {
   // a few odd stars (blends, noise) would draw lines across the frame: cut at two spacings
   const maxL = 2 * spacing;
   const cut = 1 + maxL / k;
-  out += `<defs><clipPath id="shape-clip"><rect x="${r2(m.ox)}" y="${top}" width="${r2(W * s)}" height="${r2(plotH)}"/></clipPath></defs>`;
+  out += `<defs><clipPath id="shape-clip"><rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}"/></clipPath></defs>`;
   out += '<g class="vectors" clip-path="url(#shape-clip)">';
   for (const v of vectors) out += vectorLine(m, v, k, mode === 'zones' ? theme.zoneVector : theme.vector, mode === 'zones' ? 2.5 : 1.2, maxL);
   out += '</g>';

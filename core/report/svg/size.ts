@@ -8,7 +8,7 @@ import type { Report } from '../types.ts';
 import { evalSurface } from '../../field/surface.ts';
 import type { Surface } from '../../field/types.ts';
 import type { Theme } from './theme.ts';
-import { colorKey, emptyFigure, fieldOf, frameMap, num, r2, svgOpen, text, type FrameMap } from './util.ts';
+import { colorKey, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, type FrameMap } from './util.ts';
 
 export type SizeQuantity = 'fwhmPx' | 'fwhmArcsec' | 'ellipticity';
 
@@ -132,11 +132,10 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   const id = opts.id ?? `size-${quantity}`;
   const width = opts.width ?? 900;
   const keyW = 110;
-  const top = 34;
+  const top = TITLE_H;
   const W = report.frame.width;
   const H = report.frame.height;
-  const s = (width - keyW - 20) / W;
-  const plotH = H * s;
+  const { m, plotW, plotH } = frameBesideKey(report, width, keyW);
   // room for the colour key and its two note lines beside short plots
   const keyH = Math.max(80, Math.min(plotH - 40, 260));
   const height = Math.max(plotH + top + 12, top + 24 + keyH + 56);
@@ -147,12 +146,11 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   if (!g || !range) return emptyFigure(width, height, label, why ?? 'no zone has enough stars', theme);
   let [lo, hi] = opts.domain ?? range;
   if (hi - lo < 1e-9) { lo -= 0.05 * Math.abs(lo || 1); hi += 0.05 * Math.abs(hi || 1); }
-  const m = frameMap(report, s, 10, top);
   const t = scaleLinear().domain([lo, hi]).range([0, 1]).clamp(true);
   let out = svgOpen(width, height, label, theme, id);
   out = out.replace('<svg ', `<svg data-min="${range[0]}" data-max="${range[1]}" data-source="${g.source}" `);
   out += text(10, 20, label, theme, { size: 14, weight: '600' });
-  out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(W * s)}" height="${r2(plotH)}" fill="${theme.panel}"/>`;
+  out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}" fill="${theme.panel}"/>`;
   out += '<g class="heat" shape-rendering="crispEdges">';
   for (let r = 0; r < g.rows; r++) {
     for (let c = 0; c < g.cols; c++) {
@@ -172,7 +170,7 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   const polys = contours().size([g.cols + 2, g.rows + 2]).thresholds(levels)(Array.from(g.padded));
   const W1 = W - 0.5;
   const H1 = H - 0.5;
-  out += `<defs><clipPath id="${id}-clip"><rect x="${r2(m.ox)}" y="${top}" width="${r2(W * s)}" height="${r2(plotH)}"/></clipPath></defs>`;
+  out += `<defs><clipPath id="${id}-clip"><rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}"/></clipPath></defs>`;
   out += `<g class="contours" fill="none" stroke="${theme.contour}" stroke-opacity="0.75" stroke-width="1" clip-path="url(#${id}-clip)">`;
   let labels = '';
   for (const p of polys) {
@@ -198,7 +196,7 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
     }
   }
   out += '</g>' + labels;
-  out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(W * s)}" height="${r2(plotH)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
+  out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
   out += colorKey(width - keyW + 10, top + 24, keyH, lo, hi, QUANTITY_LABEL[quantity], theme, `${id}-key`);
   const ky = top + keyH + 46;
   out += text(width - keyW + 10, ky, g.source === 'surface' ? 'smooth fit' : 'zone medians', theme, { size: 10, fill: theme.muted });

@@ -74,6 +74,18 @@ export function frameMap(report: Pick<Report, 'frame'>, s: number, ox = 0, oy = 
   };
 }
 
+/** Top margin of a figure for its title line (px). */
+export const TITLE_H = 34;
+
+/**
+ * The frame drawn at the left of a figure `width` wide, under its title, with a key keyW wide
+ * at its right (10 px margins): the map, and the plot's drawn width and height.
+ */
+export function frameBesideKey(report: Pick<Report, 'frame'>, width: number, keyW: number): { m: FrameMap; plotW: number; plotH: number } {
+  const s = (width - keyW - 20) / report.frame.width;
+  return { m: frameMap(report, s, 10, TITLE_H), plotW: report.frame.width * s, plotH: report.frame.height * s };
+}
+
 /** An <svg> element with a title and a background; `display` sets the drawn size when it differs from the viewBox. */
 export function svgOpen(w: number, h: number, label: string, theme: Theme, id?: string, display?: { width: number; height: number }): string {
   const dw = display?.width ?? w;
