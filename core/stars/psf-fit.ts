@@ -371,10 +371,7 @@ function fitPsfWithSnrWasm(k: WasmKernel, stamp: Float32Array, w: number, h: num
   if (typeof variance === 'number') constVar = variance > 0 && Number.isFinite(variance) ? variance : 0;
   else k.variance.set(variance.subarray(0, nPix));
   k.stamp.set(stamp.subarray(0, nPix));
-  let bg = init.background;
-  if (bg === undefined || !Number.isFinite(bg)) bg = borderMedian(stamp, w, h);
-  let amp = init.amplitude;
-  if (amp === undefined || !Number.isFinite(amp)) amp = peakNear(stamp, w, h, init.x, init.y) - bg;
+  const { bg, amp } = startLevels(stamp, w, h, init);
   const radius = opts.radius !== undefined && opts.radius > 0 ? opts.radius : 0;
   const status = k.fit(w, h, moffat ? 1 : 0, opts.maxIterations ?? 100, radius, constVar, init.x, init.y, init.ixx, init.iyy, init.ixy, amp, bg);
   const o = k.out;
@@ -425,11 +422,8 @@ export function fitPsfWithSnrJs(stamp: Float32Array, w: number, h: number, opts:
   P[0] = init.x; P[1] = init.y;
   P[4] = (iyy / det) * scale; P[5] = (-ixy / det) * scale; P[6] = (ixx / det) * scale;
   if (moffat) P[7] = 1 / BETA_START;
-  let bg = init.background;
-  if (bg === undefined || !Number.isFinite(bg)) bg = borderMedian(stamp, w, h);
+  const { bg, amp } = startLevels(stamp, w, h, init);
   P[3] = bg;
-  let amp = init.amplitude;
-  if (amp === undefined || !Number.isFinite(amp)) amp = peakNear(stamp, w, h, init.x, init.y) - bg;
   P[2] = amp;
 
   if (n <= m || !validShape(P, moffat, w, h) || !(det > 0)) return { fit: failed(opts.model, P, 0), snr: Number.NaN, nPixels: n };
@@ -622,6 +616,15 @@ function failed(model: 'gaussian' | 'moffat', p: Float64Array, iterations: numbe
     converged: false,
     err: { x: nan, y: nan, fwhmMajorPx: nan, fwhmMinorPx: nan, fwhmPx: nan, ellipticity: nan, thetaDeg: nan, beta: model === 'moffat' ? nan : null },
   };
+}
+
+/** Start background and amplitude: the caller's, else the border median and the peak above it. */
+function startLevels(stamp: Float32Array, w: number, h: number, init: FitOptions['init']): { bg: number; amp: number } {
+  let bg = init.background;
+  if (bg === undefined || !Number.isFinite(bg)) bg = borderMedian(stamp, w, h);
+  let amp = init.amplitude;
+  if (amp === undefined || !Number.isFinite(amp)) amp = peakNear(stamp, w, h, init.x, init.y) - bg;
+  return { bg, amp };
 }
 
 /** Median of the finite border pixels (start value for the background); uses the PROF scratch. */
