@@ -51,7 +51,7 @@ let MOMS = new Float32Array(0); // the moments' sky-subtracted stamp
  * Moments: adaptive, on the stamp as given; measured again on the stamp less the chosen fit's
  * background where that background is significant (sky the mesh missed, see below).
  *
- * Fits: started from the adaptive moments (the Moffat from the Gaussian fit's shape), over
+ * Fits: none for a detection flagged 'hot-pixel' (see below); otherwise started from the adaptive moments (the Moffat from the Gaussian fit's shape), over
  * the pixels within max(4, 2.5 x start FWHM along the major axis) of the moments centre, the
  * same pixels for both models. The models are evaluated at pixel centres, so FWHMs describe
  * the star as recorded, pixel box included (see psf-fit.ts). A fit counts only if it
@@ -127,18 +127,23 @@ export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
     ? { x: mom.x, y: mom.y, ixx: mom.ixx, iyy: mom.iyy, ixy: mom.ixy, background: 0 }
     : { x: px, y: py, ixx: sigmaGuess * sigmaGuess, iyy: sigmaGuess * sigmaGuess, ixy: 0, background: 0 };
   const want = opts?.model ?? 'auto';
+  // A single-pixel spike (detection's 'hot-pixel') is narrower than any PSF of the optics, so
+  // no PSF model describes it: the fits would only run to their iteration cap (on the bench
+  // frame these 7 % of candidates took half of all fit iterations) and fail or collapse to a
+  // point. It keeps its moments and HFD for the star table, and is never used for the field.
+  const fitIt = !input.flags.includes('hot-pixel');
   // Fit window: 2.5 x the start FWHM along the major axis (at least 4 px) about the start
   // centre, the same for both models so that their chi2 compare (a beta = 2.5 Moffat is at
   // ~0.4 % of its peak there, a Gaussian at 2^-25; the accuracy tests did not change
   // between 2.5 and 3 FWHM).
   const lmax = 0.5 * (init.ixx + init.iyy) + Math.sqrt(0.25 * (init.ixx - init.iyy) ** 2 + init.ixy * init.ixy);
   const radius = Math.max(4, 2.5 * FWHM_PER_SIGMA * Math.sqrt(lmax));
-  const rG = want !== 'moffat' ? fitPsfWithSnr(stamp, w, h, { model: 'gaussian', variance, init, radius }) : null;
+  const rG = fitIt && want !== 'moffat' ? fitPsfWithSnr(stamp, w, h, { model: 'gaussian', variance, init, radius }) : null;
   const fitG = rG ? rG.fit : null;
   // The Moffat starts from the Gaussian fit when there is one (same half-maximum contour;
   // the start centre, which also centres the window, stays the same).
   const initM = fitG !== null && fitG.converged ? { ...initFromFit(fitG), x: init.x, y: init.y } : init;
-  const rM = want !== 'gaussian' ? fitPsfWithSnr(stamp, w, h, { model: 'moffat', variance, init: initM, radius }) : null;
+  const rM = fitIt && want !== 'gaussian' ? fitPsfWithSnr(stamp, w, h, { model: 'moffat', variance, init: initM, radius }) : null;
   const fitM = rM ? rM.fit : null;
   let fit: PsfFit | null = null;
   const snrG = rG && usable(rG.fit, w, h) ? rG.snr : NaN;

@@ -138,6 +138,24 @@ describe('measureStar', () => {
     expect(measureStar(input(img, sn * sn), { minSnr: 1000 }).flags).toContain('low-snr');
   });
 
+  it("a detection flagged 'hot-pixel' gets moments and HFD but no PSF fit", () => {
+    // a single-pixel spike on sky noise (common practice: a hot pixel has no light in its
+    // neighbours, no optics can make it)
+    const u = rng(9);
+    const img = new Float32Array(W * W);
+    for (let i = 0; i < img.length; i++) img[i] = 10 * gauss(u);
+    img[12 * W + 12] = 5000;
+    const flagged = measureStar(input(img, 100, { flags: ['hot-pixel'] }));
+    expect(flagged.model).toBe('moments');
+    expect(flagged.flags).toEqual(['hot-pixel', 'fit-failed']);
+    expect(flagged.moffatBeta).toBeNull();
+    expect(flagged.hfdPx).toBeLessThan(2);
+    // the same stamp unflagged is fitted (and collapses to a point): the flag is what skips it
+    const fitted = measureStar(input(img, 100));
+    expect(fitted.model).not.toBe('moments');
+    expect(fitted.fwhmPx).toBeLessThan(1);
+  });
+
   it('never throws on bad stamps; returns fit-failed with NaN values', () => {
     const bad: StampInput[] = [
       input(new Float32Array(W * W).fill(NaN), 1),
