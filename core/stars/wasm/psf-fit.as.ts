@@ -15,11 +15,12 @@ const G_MAX: f64 = 1.0 / 1.2;
 
 const STAMP = new StaticArray<f32>(CAP);
 const VARI = new StaticArray<f32>(CAP);
-const DAT = new StaticArray<f64>(CAP);
-const WT = new StaticArray<f64>(CAP);
-const PROF = new StaticArray<f64>(CAP);
-const LNU = new StaticArray<f64>(CAP);
-const IU = new StaticArray<f64>(CAP);
+// one spare element each: the SIMD loop reads pixel pairs, the pair of a row's last pixel one past it
+const DAT = new StaticArray<f64>(CAP + 2);
+const WT = new StaticArray<f64>(CAP + 2);
+const PROF = new StaticArray<f64>(CAP + 2);
+const LNU = new StaticArray<f64>(CAP + 2);
+const IU = new StaticArray<f64>(CAP + 2);
 const COLT = new StaticArray<f64>(CAP);
 const H = new StaticArray<f64>(64);
 const G = new StaticArray<f64>(8);
@@ -48,6 +49,8 @@ function validShape(p: StaticArray<f64>, moffat: bool, w: i32, h: i32): bool {
   return isFinite(unchecked(p[2])) && isFinite(unchecked(p[3]));
 }
 
+@inline function hsum(v: v128): f64 { return f64x2.extract_lane(v, 0) + f64x2.extract_lane(v, 1); }
+
 function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
   const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
   const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
@@ -62,7 +65,7 @@ function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
       for (let x = xa; x <= xb; x++) {
         const k = row + x;
         const wk = unchecked(WT[k]);
-        if (wk == 0) { unchecked(PROF[k] = 0); continue; }
+        if (wk == 0) { unchecked(PROF[k] = 0); unchecked(LNU[k] = 0); unchecked(IU[k] = 0); continue; }
         const dx = <f64>x - x0;
         const u = 1 + kh * (dx * (a * dx + b2 * dy) + c * dy * dy);
         const lnu = Math.log(u);
@@ -120,80 +123,99 @@ function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
   unchecked(H[j * HM + i] = v);
 }
 
+// Two pixels per instruction (128-bit SIMD, double precision): the same sums as the
+// TypeScript loop, each accumulated in two lanes (even and odd columns) and added at the end.
+// Pixels without weight contribute zeros; a pixel whose profile is below 1e-10 only its
+// background terms, as in the TypeScript loop (its Jacobian masked to zero).
+
 function normalEquations(p: StaticArray<f64>, moffat: bool): void {
   const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
   const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
   const a = unchecked(p[4]), b = unchecked(p[5]), c = unchecked(p[6]);
-  let h00: f64 = 0, h01: f64 = 0, h02: f64 = 0, h03: f64 = 0, h04: f64 = 0, h05: f64 = 0, h06: f64 = 0;
-  let h11: f64 = 0, h12: f64 = 0, h13: f64 = 0, h14: f64 = 0, h15: f64 = 0, h16: f64 = 0;
-  let h22: f64 = 0, h23: f64 = 0, h24: f64 = 0, h25: f64 = 0, h26: f64 = 0;
-  let h33: f64 = 0, h34: f64 = 0, h35: f64 = 0, h36: f64 = 0;
-  let h44: f64 = 0, h45: f64 = 0, h46: f64 = 0;
-  let h55: f64 = 0, h56: f64 = 0;
-  let h66: f64 = 0;
-  let h07: f64 = 0, h17: f64 = 0, h27: f64 = 0, h37: f64 = 0, h47: f64 = 0, h57: f64 = 0, h67: f64 = 0, h77: f64 = 0;
-  let g0: f64 = 0, g1: f64 = 0, g2: f64 = 0, g3: f64 = 0, g4: f64 = 0, g5: f64 = 0, g6: f64 = 0, g7: f64 = 0;
+  const Z = f64x2.splat(0);
+  let h00 = Z, h01 = Z, h02 = Z, h03 = Z, h04 = Z, h05 = Z, h06 = Z;
+  let h11 = Z, h12 = Z, h13 = Z, h14 = Z, h15 = Z, h16 = Z;
+  let h22 = Z, h23 = Z, h24 = Z, h25 = Z, h26 = Z;
+  let h33 = Z, h34 = Z, h35 = Z, h36 = Z;
+  let h44 = Z, h45 = Z, h46 = Z;
+  let h55 = Z, h56 = Z;
+  let h66 = Z;
+  let h07 = Z, h17 = Z, h27 = Z, h37 = Z, h47 = Z, h57 = Z, h67 = Z, h77 = Z;
+  let g0 = Z, g1 = Z, g2 = Z, g3 = Z, g4 = Z, g5 = Z, g6 = Z, g7 = Z;
   const beta = moffat ? 1 / unchecked(p[7]) : 0;
   const kh = moffat ? Math.pow(2, unchecked(p[7])) - 1 : 0;
   const dkk = moffat ? (-(kh + 1) * LN2) / (beta * beta * kh) : 0;
-  const ab2k = 2 * amp * beta * kh;
-  const ln2a2 = 2 * LN2 * amp;
+  const vq = f64x2.splat(moffat ? 2 * amp * beta * kh : 2 * LN2 * amp);
+  const vamp = f64x2.splat(amp), vbg = f64x2.splat(bg);
+  const va = f64x2.splat(a), vb = f64x2.splat(b), vc = f64x2.splat(c);
+  const vb2 = f64x2.splat(amp * beta * beta), vbd = f64x2.splat(beta * dkk);
+  const vtiny = f64x2.splat(1e-10), vone = f64x2.splat(1), vhalf = f64x2.splat(-0.5);
+  const wt = changetype<usize>(WT), prof = changetype<usize>(PROF), dat = changetype<usize>(DAT);
+  const lnuP = changetype<usize>(LNU), iuP = changetype<usize>(IU);
   for (let y = ya; y <= yb; y++) {
     const dy = <f64>y - y0;
+    const vdy = f64x2.splat(dy);
     const row = y * w;
-    for (let x = xa; x <= xb; x++) {
-      const k = row + x;
-      const wk = unchecked(WT[k]);
-      if (wk == 0) continue;
-      const e = unchecked(PROF[k]);
-      const r = unchecked(DAT[k]) - bg - amp * e;
-      if (e < 1e-10) { h33 += wk; g3 += wk * r; continue; }
-      const dx = <f64>x - x0;
-      let q: f64;
-      let j7: f64 = 0;
+    for (let x = xa; x <= xb; x += 2) {
+      const off = <usize>(row + x) << 3;
+      let wk = v128.load(wt + off);
+      if (x == xb) wk = f64x2.replace_lane(wk, 1, 0);
+      if (!v128.any_true(wk)) continue;
+      const e = v128.load(prof + off);
+      const r = f64x2.sub(f64x2.sub(v128.load(dat + off), vbg), f64x2.mul(vamp, e));
+      const keep = f64x2.ge(e, vtiny);
+      const dx = f64x2.sub(f64x2(<f64>x, <f64>(x + 1)), f64x2.splat(x0));
+      let q = f64x2.mul(vq, e);
+      let j7 = Z;
       if (moffat) {
-        const iu = unchecked(IU[k]);
-        q = ab2k * e * iu;
-        j7 = amp * e * beta * beta * (unchecked(LNU[k]) + beta * dkk * (1 - iu));
-      } else {
-        q = ln2a2 * e;
+        const iu = v128.load(iuP + off);
+        q = f64x2.mul(q, iu);
+        j7 = v128.and(f64x2.mul(f64x2.mul(vb2, e), f64x2.add(v128.load(lnuP + off), f64x2.mul(vbd, f64x2.sub(vone, iu)))), keep);
       }
-      const j0 = q * (a * dx + b * dy);
-      const j1 = q * (b * dx + c * dy);
-      const j2 = e;
-      const j4 = -0.5 * q * dx * dx;
-      const j5 = -q * dx * dy;
-      const j6 = -0.5 * q * dy * dy;
-      const w0 = wk * j0, w1 = wk * j1, w2 = wk * j2, w4 = wk * j4, w5 = wk * j5, w6 = wk * j6;
-      h00 += w0 * j0; h01 += w0 * j1; h02 += w0 * j2; h03 += w0; h04 += w0 * j4; h05 += w0 * j5; h06 += w0 * j6;
-      h11 += w1 * j1; h12 += w1 * j2; h13 += w1; h14 += w1 * j4; h15 += w1 * j5; h16 += w1 * j6;
-      h22 += w2 * j2; h23 += w2; h24 += w2 * j4; h25 += w2 * j5; h26 += w2 * j6;
-      h33 += wk; h34 += w4; h35 += w5; h36 += w6;
-      h44 += w4 * j4; h45 += w4 * j5; h46 += w4 * j6;
-      h55 += w5 * j5; h56 += w5 * j6;
-      h66 += w6 * j6;
-      const wr = wk * r;
-      g0 += wr * j0; g1 += wr * j1; g2 += wr * j2; g3 += wr; g4 += wr * j4; g5 += wr * j5; g6 += wr * j6;
+      q = v128.and(q, keep);
+      const j0 = f64x2.mul(q, f64x2.add(f64x2.mul(va, dx), f64x2.mul(vb, vdy)));
+      const j1 = f64x2.mul(q, f64x2.add(f64x2.mul(vb, dx), f64x2.mul(vc, vdy)));
+      const j2 = v128.and(e, keep);
+      const j4 = f64x2.mul(f64x2.mul(vhalf, q), f64x2.mul(dx, dx));
+      const j5 = f64x2.neg(f64x2.mul(f64x2.mul(q, dx), vdy));
+      const j6 = f64x2.mul(f64x2.mul(vhalf, q), f64x2.mul(vdy, vdy));
+      const w0 = f64x2.mul(wk, j0), w1 = f64x2.mul(wk, j1), w2 = f64x2.mul(wk, j2);
+      const w4 = f64x2.mul(wk, j4), w5 = f64x2.mul(wk, j5), w6 = f64x2.mul(wk, j6);
+      h00 = f64x2.add(h00, f64x2.mul(w0, j0)); h01 = f64x2.add(h01, f64x2.mul(w0, j1)); h02 = f64x2.add(h02, f64x2.mul(w0, j2));
+      h03 = f64x2.add(h03, w0); h04 = f64x2.add(h04, f64x2.mul(w0, j4)); h05 = f64x2.add(h05, f64x2.mul(w0, j5)); h06 = f64x2.add(h06, f64x2.mul(w0, j6));
+      h11 = f64x2.add(h11, f64x2.mul(w1, j1)); h12 = f64x2.add(h12, f64x2.mul(w1, j2)); h13 = f64x2.add(h13, w1);
+      h14 = f64x2.add(h14, f64x2.mul(w1, j4)); h15 = f64x2.add(h15, f64x2.mul(w1, j5)); h16 = f64x2.add(h16, f64x2.mul(w1, j6));
+      h22 = f64x2.add(h22, f64x2.mul(w2, j2)); h23 = f64x2.add(h23, w2); h24 = f64x2.add(h24, f64x2.mul(w2, j4));
+      h25 = f64x2.add(h25, f64x2.mul(w2, j5)); h26 = f64x2.add(h26, f64x2.mul(w2, j6));
+      h33 = f64x2.add(h33, wk); h34 = f64x2.add(h34, w4); h35 = f64x2.add(h35, w5); h36 = f64x2.add(h36, w6);
+      h44 = f64x2.add(h44, f64x2.mul(w4, j4)); h45 = f64x2.add(h45, f64x2.mul(w4, j5)); h46 = f64x2.add(h46, f64x2.mul(w4, j6));
+      h55 = f64x2.add(h55, f64x2.mul(w5, j5)); h56 = f64x2.add(h56, f64x2.mul(w5, j6));
+      h66 = f64x2.add(h66, f64x2.mul(w6, j6));
+      const wr = f64x2.mul(wk, r);
+      g0 = f64x2.add(g0, f64x2.mul(wr, j0)); g1 = f64x2.add(g1, f64x2.mul(wr, j1)); g2 = f64x2.add(g2, f64x2.mul(wr, j2));
+      g3 = f64x2.add(g3, wr); g4 = f64x2.add(g4, f64x2.mul(wr, j4)); g5 = f64x2.add(g5, f64x2.mul(wr, j5)); g6 = f64x2.add(g6, f64x2.mul(wr, j6));
       if (moffat) {
-        const w7 = wk * j7;
-        h07 += w0 * j7; h17 += w1 * j7; h27 += w2 * j7; h37 += w7; h47 += w4 * j7; h57 += w5 * j7; h67 += w6 * j7; h77 += w7 * j7;
-        g7 += wr * j7;
+        const w7 = f64x2.mul(wk, j7);
+        h07 = f64x2.add(h07, f64x2.mul(w0, j7)); h17 = f64x2.add(h17, f64x2.mul(w1, j7)); h27 = f64x2.add(h27, f64x2.mul(w2, j7));
+        h37 = f64x2.add(h37, w7); h47 = f64x2.add(h47, f64x2.mul(w4, j7)); h57 = f64x2.add(h57, f64x2.mul(w5, j7));
+        h67 = f64x2.add(h67, f64x2.mul(w6, j7)); h77 = f64x2.add(h77, f64x2.mul(w7, j7));
+        g7 = f64x2.add(g7, f64x2.mul(wr, j7));
       }
     }
   }
   HM = moffat ? 8 : 7;
-  setH(0, 0, h00); setH(0, 1, h01); setH(0, 2, h02); setH(0, 3, h03); setH(0, 4, h04); setH(0, 5, h05); setH(0, 6, h06);
-  setH(1, 1, h11); setH(1, 2, h12); setH(1, 3, h13); setH(1, 4, h14); setH(1, 5, h15); setH(1, 6, h16);
-  setH(2, 2, h22); setH(2, 3, h23); setH(2, 4, h24); setH(2, 5, h25); setH(2, 6, h26);
-  setH(3, 3, h33); setH(3, 4, h34); setH(3, 5, h35); setH(3, 6, h36);
-  setH(4, 4, h44); setH(4, 5, h45); setH(4, 6, h46);
-  setH(5, 5, h55); setH(5, 6, h56);
-  setH(6, 6, h66);
-  unchecked(G[0] = g0); unchecked(G[1] = g1); unchecked(G[2] = g2); unchecked(G[3] = g3);
-  unchecked(G[4] = g4); unchecked(G[5] = g5); unchecked(G[6] = g6);
+  setH(0, 0, hsum(h00)); setH(0, 1, hsum(h01)); setH(0, 2, hsum(h02)); setH(0, 3, hsum(h03)); setH(0, 4, hsum(h04)); setH(0, 5, hsum(h05)); setH(0, 6, hsum(h06));
+  setH(1, 1, hsum(h11)); setH(1, 2, hsum(h12)); setH(1, 3, hsum(h13)); setH(1, 4, hsum(h14)); setH(1, 5, hsum(h15)); setH(1, 6, hsum(h16));
+  setH(2, 2, hsum(h22)); setH(2, 3, hsum(h23)); setH(2, 4, hsum(h24)); setH(2, 5, hsum(h25)); setH(2, 6, hsum(h26));
+  setH(3, 3, hsum(h33)); setH(3, 4, hsum(h34)); setH(3, 5, hsum(h35)); setH(3, 6, hsum(h36));
+  setH(4, 4, hsum(h44)); setH(4, 5, hsum(h45)); setH(4, 6, hsum(h46));
+  setH(5, 5, hsum(h55)); setH(5, 6, hsum(h56));
+  setH(6, 6, hsum(h66));
+  unchecked(G[0] = hsum(g0)); unchecked(G[1] = hsum(g1)); unchecked(G[2] = hsum(g2)); unchecked(G[3] = hsum(g3));
+  unchecked(G[4] = hsum(g4)); unchecked(G[5] = hsum(g5)); unchecked(G[6] = hsum(g6));
   if (moffat) {
-    setH(0, 7, h07); setH(1, 7, h17); setH(2, 7, h27); setH(3, 7, h37); setH(4, 7, h47); setH(5, 7, h57); setH(6, 7, h67); setH(7, 7, h77);
-    unchecked(G[7] = g7);
+    setH(0, 7, hsum(h07)); setH(1, 7, hsum(h17)); setH(2, 7, hsum(h27)); setH(3, 7, hsum(h37)); setH(4, 7, hsum(h47)); setH(5, 7, hsum(h57)); setH(6, 7, hsum(h67)); setH(7, 7, hsum(h77));
+    unchecked(G[7] = hsum(g7));
   }
 }
 
