@@ -10,6 +10,8 @@ import { fitPsfWithSnr } from './psf-fit.ts';
 import { adaptiveMoments, adaptiveMomentErrors, momentsToEllipse, type AdaptiveMoments } from './moments.ts';
 import { halfFluxDiameterWithError } from './hfd.ts';
 import { selectKth } from '../image/stats.ts';
+import { lazyKernel } from '../wasm/instantiate.ts';
+import { MEASURE_WASM_BASE64 } from './wasm/measure.wasm.ts';
 
 export interface StampInput {
   stamp: Float32Array;   // background-subtracted pixels, row-major w*h (NaN = missing)
@@ -70,6 +72,78 @@ let MOMS = new Float32Array(0); // the moments' sky-subtracted stamp
  * that fits in the stamp.
  */
 export function measureStar(input: StampInput, opts?: MeasureOptions): Star {
+  const k = MEASURE_JS ? null : measureKernel();
+  const { w, h } = input;
+  if (k && Number.isInteger(w) && Number.isInteger(h) && w >= 3 && h >= 3 && w * h <= k.capacity &&
+    input.stamp instanceof Float32Array && input.stamp.length >= w * h) return measureStarWasm(k, input, opts);
+  return measureStarJs(input, opts);
+}
+
+interface MeasureKernel {
+  capacity: number;
+  stamp: Float32Array;
+  out: Float64Array;
+  run: (w: number, h: number, skyVar: number, gain: number, sigmaGuess: number, model: number, fitIt: number) => void;
+}
+/**
+ * measureStarJs's arithmetic as one WebAssembly call per star (wasm/measure.as.ts, built with
+ * the fit, moments and HFD kernels), once per thread; null where WebAssembly is unavailable,
+ * or SKYLOUPE_WASM=0 / SKYLOUPE_MEASURE=js asks for the TypeScript path.
+ */
+const measureKernel = lazyKernel<MeasureKernel>(MEASURE_WASM_BASE64, 'measure', (m) => {
+  const cap = m.int('capacity');
+  return { capacity: cap, stamp: m.f32('stampPtr', cap), out: m.f64('outPtr', 32), run: m.fn('measure') };
+});
+const MEASURE_JS = typeof process !== 'undefined' && process.env?.SKYLOUPE_MEASURE === 'js';
+const MODEL_CODE = { auto: 0, gaussian: 1, moffat: 2 } as const;
+
+/** measureStar through the kernel: the flags and the Star are made here, as measureStarJs makes them. */
+function measureStarWasm(k: MeasureKernel, input: StampInput, opts?: MeasureOptions): Star {
+  const flags: StarFlag[] = [...input.flags];
+  if (input.saturated) addFlag(flags, 'saturated');
+  const { w, h } = input;
+  const ox = input.originX, oy = input.originY;
+  k.stamp.set(input.stamp.subarray(0, w * h));
+  const gain = input.gain !== null && input.gain > 0 && Number.isFinite(input.gain) ? input.gain : 0;
+  k.run(w, h, input.skyVariance, gain, input.sigmaGuessPx, MODEL_CODE[opts?.model ?? 'auto'], input.flags.includes('hot-pixel') ? 0 : 1);
+  const o = k.out;
+  if (o[1] === 1) addFlag(flags, 'edge');
+  if (o[0] === 1) {
+    addFlag(flags, 'fit-failed');
+    return emptyStar(flags, ox + (w - 1) / 2, oy + (h - 1) / 2);
+  }
+  const model = o[4];
+  if (model === 0 || model === 3) addFlag(flags, 'fit-failed');
+  if (model === 0) return emptyStar(flags, ox + o[2], oy + o[3], o[18]);
+  const nan = Number.NaN;
+  const momOk = o[20] === 1;
+  const moments = momOk ? { ixx: o[21], iyy: o[22], ixy: o[23], e1: o[24], e2: o[25] } : { ixx: nan, iyy: nan, ixy: nan, e1: nan, e2: nan };
+  const coma = momOk ? { x: o[26], y: o[27] } : { x: nan, y: nan };
+  const snr = o[8];
+  let star: Star;
+  if (model === 3) {
+    const a = o[9], b = o[10];
+    star = {
+      x: ox + o[5], y: oy + o[6], flux: o[7], snr,
+      fwhmPx: FWHM_PER_SIGMA * Math.sqrt(a * b), fwhmMajorPx: FWHM_PER_SIGMA * a, fwhmMinorPx: FWHM_PER_SIGMA * b,
+      ellipticity: 1 - b / a, thetaDeg: o[11], hfdPx: o[18], coma, flags, model: 'moments', moffatBeta: null, moments,
+      err: { x: o[30], y: o[31], fwhmPx: nan, ellipticity: nan, thetaDeg: nan, hfdPx: o[19], e1: o[28], e2: o[29] },
+    };
+  } else {
+    const fMaj = o[9], fMin = o[10];
+    star = {
+      x: ox + o[5], y: oy + o[6], flux: o[7], snr,
+      fwhmPx: Math.sqrt(fMaj * fMin), fwhmMajorPx: fMaj, fwhmMinorPx: fMin, ellipticity: 1 - fMin / fMaj, thetaDeg: o[11],
+      hfdPx: o[18], coma, flags, model: model === 2 ? 'moffat' : 'gaussian', moffatBeta: model === 2 ? o[12] : null, moments,
+      err: { x: o[13], y: o[14], fwhmPx: o[15], ellipticity: o[16], thetaDeg: o[17], hfdPx: o[19], e1: momOk ? o[28] : nan, e2: momOk ? o[29] : nan },
+    };
+  }
+  if (!(snr >= (opts?.minSnr ?? 10))) addFlag(flags, 'low-snr');
+  return star;
+}
+
+/** measureStar in TypeScript (the kernels it calls may be WebAssembly): the reference for measureStarWasm, and the fallback. */
+export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   const flags: StarFlag[] = [...input.flags];
   if (input.saturated) addFlag(flags, 'saturated');
   const { w, h } = input;

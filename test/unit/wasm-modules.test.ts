@@ -4,7 +4,8 @@
 // core/image/stats.ts, convolveBandJs in core/image/convolve.ts), the half-flux diameter those
 // of halfFluxDiameterWithErrorJs and the adaptive moments those of adaptiveMomentsJs to rounding
 // (their exp, asin and sqrt are the module's own).
-// The PSF fit's equivalence is in stars-psf-fit-wasm.test.ts.
+// The PSF fit's equivalence is in stars-psf-fit-wasm.test.ts, the per-star kernel's in
+// stars-measure-wasm.test.ts.
 import { describe, it, expect } from 'vitest';
 import { clippedStats } from '../../core/image/stats.ts';
 import { convolveBand, convolveBandJs, gaussianTaps } from '../../core/image/convolve.ts';
@@ -16,6 +17,7 @@ import { halfFluxDiameterWithError, halfFluxDiameterWithErrorJs } from '../../co
 import { instantiateWasm } from '../../core/wasm/instantiate.ts';
 import * as psf from '../../core/stars/wasm/psf-fit.wasm.ts';
 import * as sky from '../../core/image/wasm/sky-stats.wasm.ts';
+import * as meas from '../../core/stars/wasm/measure.wasm.ts';
 import { mulberry32, normal } from '../helpers/rng.ts';
 // @ts-expect-error plain JavaScript build script without type declarations
 import { compileWasm, sourceSha256, WASM_MODULES } from '../../bin/build-wasm.mjs';
@@ -26,13 +28,14 @@ const committed: Record<string, { sha: string; b64: string }> = {
   CONVOLVE: { sha: conv.CONVOLVE_SOURCE_SHA256, b64: conv.CONVOLVE_WASM_BASE64 },
   HFD: { sha: hfd.HFD_SOURCE_SHA256, b64: hfd.HFD_WASM_BASE64 },
   MOMENTS: { sha: mom.MOMENTS_SOURCE_SHA256, b64: mom.MOMENTS_WASM_BASE64 },
+  MEASURE: { sha: meas.MEASURE_SOURCE_SHA256, b64: meas.MEASURE_WASM_BASE64 },
 };
 
 describe('WebAssembly kernels', () => {
   it('each committed module is its compiled source (run npm run build:wasm after editing a .as.ts)', async () => {
     expect((WASM_MODULES as { name: string }[]).map((m) => m.name).sort()).toEqual(Object.keys(committed).sort());
-    for (const m of WASM_MODULES as { name: string; source: string }[]) {
-      expect(sourceSha256(m.source)).toBe(committed[m.name].sha);
+    for (const m of WASM_MODULES as { name: string; source: string; imports: string[] }[]) {
+      expect(sourceSha256(m.source, m.imports)).toBe(committed[m.name].sha);
       const bytes: Buffer = await compileWasm(m.source);
       expect(bytes.toString('base64')).toBe(committed[m.name].b64);
     }

@@ -28,6 +28,8 @@ const A = new StaticArray<f64>(64);
 const P = new StaticArray<f64>(8);
 const PT = new StaticArray<f64>(8);
 const DELTA = new StaticArray<f64>(8);
+const COV = new StaticArray<f64>(64);
+const UNIT = new StaticArray<f64>(8);
 // results: P[0..8), H[8..72) (m x m, row-major), chi2, iterations, converged, pixels, snr
 const OUT = new StaticArray<f64>(80);
 
@@ -373,4 +375,21 @@ export function fit(w: i32, h: i32, moffat: bool, maxIter: i32, radius: f64, con
 
 function copyP(): void {
   for (let i = 0; i < 8; i++) unchecked(OUT[i] = unchecked(P[i]));
+}
+
+/**
+ * After fit(): the parameter covariance (J^T W J)^-1 of the last normal equations, times
+ * scale, row-major m x m at the returned address; 0 when they are not positive definite
+ * (the covariance step of ../psf-fit.ts finish, for the per-star kernel in measure.as.ts).
+ */
+export function covariance(m: i32, scale: f64): usize {
+  for (let i = 0; i < m * m; i++) unchecked(A[i] = unchecked(H[i]));
+  if (!cholesky(m)) return 0;
+  for (let j = 0; j < m; j++) {
+    for (let i = 0; i < m; i++) unchecked(UNIT[i] = i == j ? 1 : 0);
+    cholSolve(m, UNIT);
+    for (let i = 0; i < m; i++) unchecked(COV[i * m + j] = unchecked(UNIT[i]));
+  }
+  for (let i = 0; i < m * m; i++) unchecked(COV[i] = unchecked(COV[i]) * scale);
+  return changetype<usize>(COV);
 }

@@ -1,0 +1,368 @@
+// AssemblyScript source of the per-star measurement's arithmetic (measureStarJs in
+// ../measure.ts with fitPsfWithSnr's finish in ../psf-fit.ts, which stay the reference: see the
+// method there), compiled with the fit, moments and HFD kernels it calls into one WebAssembly
+// module by `npm run build:wasm` (measure.wasm.ts). The caller keeps the flags and builds the
+// Star from OUT. test/unit/stars-measure-wasm.test.ts checks both give the same stars, and
+// test/unit/wasm-modules.test.ts that the compiled bytes match the sources.
+// Why one call per star: the glue between the kernels, run as JavaScript, was the largest part
+// of each worker's start (the JIT compiles it afresh in every thread).
+
+import { fit, stampPtr as fitStamp, variancePtr as fitVar, outPtr as fitOut, covariance } from './psf-fit.as';
+import { moments, momentErrors, stampPtr as momStamp, variancePtr as momVar, outPtr as momOut } from './moments.as';
+import { hfd, stampPtr as hfdStamp, variancePtr as hfdVar, outPtr as hfdOut } from './hfd.as';
+
+const CAP: i32 = 16384;
+const LN2: f64 = 0.6931471805599453;
+const FWHM_PER_SIGMA: f64 = 2.3548200450309493; // 2 sqrt(2 ln 2)
+const RAD2DEG: f64 = 180 / Math.PI;
+const F_MOFFAT: f64 = 9;
+const MIN_FIT_SNR: f64 = 3;
+
+const ST = new StaticArray<f32>(CAP);   // the stamp (+-Infinity made NaN)
+const VAR = new StaticArray<f32>(CAP);  // per-pixel variance
+const RING = new StaticArray<f32>(CAP);
+const LIFT = new StaticArray<f32>(CAP); // the stamp less the fit's background
+const BORD = new StaticArray<f64>(4 * 128); // border pixels (the stamp is at most 128 x 128)
+
+// Results. Status: 0 measured, 1 fewer than 12 finite pixels.
+// [0] status, [1] edge (0/1), [2] px, [3] py (start pixel), [4] model (0 none, 1 gaussian, 2 moffat, 3 moments)
+// [5] x, [6] y, [7] flux, [8] snr, [9] fwhmMajor, [10] fwhmMinor (model 3: the rms axes), [11] theta, [12] beta
+// [13] err x, [14] err y, [15] err fwhm, [16] err ellipticity, [17] err theta
+// [18] hfd, [19] hfd err, [20] momOk, [21..26) ixx iyy ixy e1 e2, [26] comaX, [27] comaY
+// [28] err e1, [29] err e2, [30] err x (moments), [31] err y (moments)
+const OUT = new StaticArray<f64>(32);
+
+export function capacity(): i32 { return CAP; }
+export function stampPtr(): usize { return changetype<usize>(ST); }
+export function outPtr(): usize { return changetype<usize>(OUT); }
+
+// one fit's derived quantities (finish in ../psf-fit.ts), kept per model
+class Fit {
+  ok: bool = false; // usable with matched-filter SNR >= 3
+  converged: bool = false;
+  x: f64 = NaN; y: f64 = NaN; amp: f64 = NaN; bg: f64 = NaN;
+  fMaj: f64 = NaN; fMin: f64 = NaN; theta: f64 = NaN; beta: f64 = NaN; flux: f64 = NaN;
+  chi2r: f64 = NaN; snr: f64 = NaN; n: f64 = 0;
+  ex: f64 = NaN; ey: f64 = NaN; eMean: f64 = NaN; eEll: f64 = NaN; eTheta: f64 = NaN;
+}
+const FG = new Fit();
+const FM = new Fit();
+
+@inline function f32at(a: StaticArray<f32>, i: i32): f64 { return <f64>unchecked(a[i]); }
+
+/** sqrt(g^T C g) over the shape parameters 4..6 (finish's shapeErr). */
+function shapeErr(cov: usize, m: i32, g4: f64, g5: f64, g6: f64): f64 {
+  if (cov == 0) return NaN;
+  let v: f64 = 0;
+  for (let i = 4; i < 7; i++) {
+    const gi = i == 4 ? g4 : i == 5 ? g5 : g6;
+    for (let j = 4; j < 7; j++) {
+      const gj = j == 4 ? g4 : j == 5 ? g5 : g6;
+      v += gi * load<f64>(cov + <usize>(i * m + j) * 8) * gj;
+    }
+  }
+  return Math.sqrt(Math.max(v, 0));
+}
+
+/** One PSF fit on ST with VAR over the window, then finish's derived quantities and the usable test. */
+function runFit(f: Fit, w: i32, h: i32, moffat: bool, radius: f64, ix: f64, iy: f64, ixx: f64, iyy: f64, ixy: f64, amp: f64, bg: f64): void {
+  const n = w * h;
+  memory.copy(fitStamp(), changetype<usize>(ST), <usize>n * 4);
+  memory.copy(fitVar(), changetype<usize>(VAR), <usize>n * 4);
+  const status = fit(w, h, moffat, 100, radius, -1, ix, iy, ixx, iyy, ixy, amp, bg);
+  const o = fitOut();
+  const m: i32 = moffat ? 8 : 7;
+  f.ok = false; f.converged = false;
+  f.n = load<f64>(o + 75 * 8);
+  if (status != 0) return;
+  const P0 = load<f64>(o), P1 = load<f64>(o + 8), P2 = load<f64>(o + 16), P3 = load<f64>(o + 24);
+  const a = load<f64>(o + 32), b = load<f64>(o + 40), c = load<f64>(o + 48), P7 = load<f64>(o + 56);
+  const chi2 = load<f64>(o + 72 * 8);
+  const conv = load<f64>(o + 74 * 8) == 1 && P2 > 0;
+  const dof = f.n - <f64>m;
+  const chi2r = chi2 / dof;
+  const beta = moffat ? 1 / P7 : 0;
+  const kh = moffat ? Math.pow(2, P7) - 1 : 0;
+  const det = a * c - b * b;
+  const half = 0.5 * (a + c);
+  const D = Math.sqrt(0.25 * (a - c) * (a - c) + b * b);
+  const l1 = half - D, l2 = half + D;
+  const fMaj = 2 / Math.sqrt(l1), fMin = 2 / Math.sqrt(l2);
+  const fMean = Math.sqrt(fMaj * fMin);
+  const theta0 = 0.5 * Math.atan2(-2 * b, c - a) * RAD2DEG;
+  f.x = P0; f.y = P1; f.amp = P2; f.bg = P3;
+  f.fMaj = fMaj; f.fMin = fMin; f.theta = theta0 <= -90 ? theta0 + 180 : theta0;
+  f.beta = moffat ? beta : NaN;
+  f.flux = moffat ? (Math.PI * P2) / ((beta - 1) * kh * Math.sqrt(det)) : (Math.PI * P2) / (LN2 * Math.sqrt(det));
+  f.chi2r = chi2r;
+  f.snr = load<f64>(o + 76 * 8);
+  f.converged = conv && isFinite(fMean);
+  const cov = covariance(m, Math.max(1, chi2r));
+  const sr = D > 0 ? (a - c) / (2 * D) : 0;
+  const br = D > 0 ? b / D : 0;
+  const dl1a = 0.5 - 0.5 * sr, dl1b = -br, dl1c = 0.5 + 0.5 * sr;
+  const dl2a = 0.5 + 0.5 * sr, dl2b = br, dl2c = 0.5 - 0.5 * sr;
+  f.eMean = shapeErr(cov, m, (-fMean / 4) * (c / det), (fMean / 4) * ((2 * b) / det), (-fMean / 4) * (a / det));
+  const de1 = -0.5 / Math.sqrt(l1 * l2), de2 = (0.5 * Math.sqrt(l1)) / Math.pow(l2, 1.5);
+  f.eEll = shapeErr(cov, m, de1 * dl1a + de2 * dl2a, de1 * dl1b + de2 * dl2b, de1 * dl1c + de2 * dl2c);
+  const X = c - a, Y = -2 * b, R2 = X * X + Y * Y;
+  f.eTheta = 90;
+  if (R2 > 0) f.eTheta = Math.min(90, shapeErr(cov, m, (0.5 * Y) / R2, -X / R2, (-0.5 * Y) / R2) * RAD2DEG);
+  f.ex = cov != 0 ? Math.sqrt(load<f64>(cov)) : NaN;
+  f.ey = cov != 0 ? Math.sqrt(load<f64>(cov + <usize>(m + 1) * 8)) : NaN;
+  // usable (measure.ts): converged, positive amplitude, centre inside, size below the stamp's
+  const usable = f.converged && P2 > 0 && P0 >= -0.5 && P0 <= <f64>w - 0.5 && P1 >= -0.5 && P1 <= <f64>h - 0.5 &&
+    fMin > 0.3 && fMaj < <f64>max(w, h);
+  f.ok = usable && f.snr >= MIN_FIT_SNR;
+}
+
+/** The moments (adaptiveMoments) of the given stamp copy, from (x0, y0) with sigma0; OUT of moments.as. */
+function runMoments(src: StaticArray<f32>, w: i32, h: i32, x0: f64, y0: f64, s0: f64): usize {
+  memory.copy(momStamp(), changetype<usize>(src), <usize>(w * h) * 4);
+  moments(w, h, x0, y0, s0);
+  return momOut();
+}
+
+@inline function momGood(o: usize): bool {
+  return load<f64>(o + 80) == 1 && load<f64>(o + 56) > 0 && load<f64>(o + 16) > 0 && load<f64>(o + 24) > 0;
+}
+
+/** k-th smallest of RING[0..n) (quickselect, as core/image/stats.ts selectKth). */
+function selectKth(n: i32, k: i32): f64 {
+  let lo = 0, hi = n - 1;
+  while (lo < hi) {
+    const pivot = unchecked(RING[(lo + hi) >> 1]);
+    let i = lo, j = hi;
+    while (i <= j) {
+      while (unchecked(RING[i]) < pivot) i++;
+      while (unchecked(RING[j]) > pivot) j--;
+      if (i <= j) { const t = unchecked(RING[i]); unchecked(RING[i] = unchecked(RING[j])); unchecked(RING[j] = t); i++; j--; }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return <f64>unchecked(RING[k]);
+  }
+  return <f64>unchecked(RING[k]);
+}
+
+/** Sky variance from the stamp border, (1.4826 MAD)^2 (measure.ts borderVariance). */
+function borderVariance(w: i32, h: i32): f64 {
+  let n = 0;
+  for (let y = 0; y < h; y++) for (let x = 0; x < w; x++) {
+    if (y != 0 && y != h - 1 && x != 0 && x != w - 1) continue;
+    const v = unchecked(ST[y * w + x]);
+    if (v == v && n < 4 * 128) { unchecked(BORD[n] = <f64>v); n++; }
+  }
+  if (n < 3) return 1;
+  const med = sortedMiddle(n);
+  for (let i = 0; i < n; i++) unchecked(BORD[i] = Math.abs(unchecked(BORD[i]) - med));
+  const s = 1.4826 * sortedMiddle(n);
+  return s > 0 ? s * s : 1;
+}
+
+/** BORD[0..n) sorted (insertion sort: a border's length), its element n >> 1. */
+function sortedMiddle(n: i32): f64 {
+  for (let i = 1; i < n; i++) {
+    const v = unchecked(BORD[i]);
+    let j = i - 1;
+    while (j >= 0 && unchecked(BORD[j]) > v) { unchecked(BORD[j + 1] = unchecked(BORD[j])); j--; }
+    unchecked(BORD[j + 1] = v);
+  }
+  return unchecked(BORD[n >> 1]);
+}
+
+/**
+ * measureStarJs's arithmetic on the stamp in ST (w x h, the caller has checked the shape):
+ * skyVar <= 0 or not finite means "from the border", gain <= 0 none, model 0 auto /
+ * 1 gaussian / 2 moffat, fitIt 0 for no PSF fits (a hot pixel). Results in OUT.
+ */
+export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn: f64, model: i32, fitIt: bool): void {
+  const n = w * h;
+  const nan: f64 = NaN;
+  for (let i = 0; i < 32; i++) unchecked(OUT[i] = nan);
+  let finite = 0;
+  for (let i = 0; i < n; i++) {
+    const v = unchecked(ST[i]);
+    if (v - v == 0) finite++;
+    else if (v == v) unchecked(ST[i] = NaN); // +-Infinity: missing
+  }
+  unchecked(OUT[1] = finite < n ? 1 : 0);
+  if (finite < 12) { unchecked(OUT[0] = 1); return; }
+  unchecked(OUT[0] = 0);
+  let skyVar = skyVarIn;
+  if (!(skyVar > 0) || !isFinite(skyVar)) skyVar = borderVariance(w, h);
+  const gain = gainIn > 0 && isFinite(gainIn) ? gainIn : 0;
+  const sigmaGuess = isFinite(sigmaGuessIn) && sigmaGuessIn > 0.3 ? sigmaGuessIn : 1.5;
+
+  // brightest pixel near the stamp centre
+  const cx0 = <f64>(w - 1) / 2, cy0 = <f64>(h - 1) / 2;
+  const rs = Math.max(2, 1.5 * sigmaGuess);
+  let px = Math.round(cx0), py = Math.round(cy0), best = -Infinity;
+  const ylo = <i32>Math.max(0, Math.ceil(cy0 - rs)), yhi = <i32>Math.min(<f64>(h - 1), Math.floor(cy0 + rs));
+  const xlo = <i32>Math.max(0, Math.ceil(cx0 - rs)), xhi = <i32>Math.min(<f64>(w - 1), Math.floor(cx0 + rs));
+  for (let y = ylo; y <= yhi; y++) {
+    for (let x = xlo; x <= xhi; x++) {
+      const v = f32at(ST, y * w + x);
+      if (v > best && (<f64>x - cx0) * (<f64>x - cx0) + (<f64>y - cy0) * (<f64>y - cy0) <= rs * rs) { best = v; px = <f64>x; py = <f64>y; }
+    }
+  }
+  unchecked(OUT[2] = px); unchecked(OUT[3] = py);
+  let mo = runMoments(ST, w, h, px, py, sigmaGuess);
+  let momOk = momGood(mo);
+  let mx = load<f64>(mo), my = load<f64>(mo + 8), mxx = load<f64>(mo + 16), myy = load<f64>(mo + 24), mxy = load<f64>(mo + 32);
+  let me1 = load<f64>(mo + 40), me2 = load<f64>(mo + 48), mflux = load<f64>(mo + 56), mcx = load<f64>(mo + 64), mcy = load<f64>(mo + 72);
+  let momLifted = false;
+
+  // variance: sky, plus the moments' Gaussian over the gain (fillVariance)
+  if (gain == 0 || !momOk) {
+    for (let i = 0; i < n; i++) { const v = unchecked(ST[i]); unchecked(VAR[i] = v == v ? <f32>skyVar : <f32>Infinity); }
+  } else {
+    const det = mxx * myy - mxy * mxy;
+    const ia = myy / det, ib = -mxy / det, ic = mxx / det;
+    const amp = mflux / (2 * Math.PI * Math.sqrt(det));
+    for (let y = 0; y < h; y++) {
+      const dy = <f64>y - my;
+      for (let x = 0; x < w; x++) {
+        const i = y * w + x;
+        const v = unchecked(ST[i]);
+        if (v != v) { unchecked(VAR[i] = <f32>Infinity); continue; }
+        const dx = <f64>x - mx;
+        const g = amp * Math.exp(-0.5 * (dx * (ia * dx + 2 * ib * dy) + ic * dy * dy));
+        unchecked(VAR[i] = <f32>(skyVar + (g > 0 ? g / gain : 0)));
+      }
+    }
+  }
+
+  const ix = momOk ? mx : px, iy = momOk ? my : py;
+  const ixx = momOk ? mxx : sigmaGuess * sigmaGuess, iyy = momOk ? myy : sigmaGuess * sigmaGuess, ixy = momOk ? mxy : 0;
+  const lmax = 0.5 * (ixx + iyy) + Math.sqrt(0.25 * (ixx - iyy) * (ixx - iyy) + ixy * ixy);
+  const radius = Math.max(4, 2.5 * FWHM_PER_SIGMA * Math.sqrt(lmax));
+  const doG = fitIt && model != 2, doM = fitIt && model != 1;
+  FG.ok = false; FM.ok = false; FG.converged = false;
+  if (doG) {
+    // start amplitude: the peak of the 3x3 box about the start, background 0 (startLevels)
+    const cx = <i32>Math.round(ix), cy = <i32>Math.round(iy);
+    let pk = -Infinity;
+    for (let yy = max(0, cy - 1); yy <= min(h - 1, cy + 1); yy++) for (let xx = max(0, cx - 1); xx <= min(w - 1, cx + 1); xx++) {
+      const v = f32at(ST, yy * w + xx);
+      if (isFinite(v) && v > pk) pk = v;
+    }
+    runFit(FG, w, h, false, radius, ix, iy, ixx, iyy, ixy, isFinite(pk) ? pk : 0, 0);
+  }
+  if (doM) {
+    if (doG && FG.converged) {
+      // the Gaussian fit's half-maximum contour, amplitude and background (initFromFit)
+      const s1 = FG.fMaj / FWHM_PER_SIGMA, s2 = FG.fMin / FWHM_PER_SIGMA;
+      const t = (FG.theta * Math.PI) / 180, c = Math.cos(t), s = Math.sin(t);
+      runFit(FM, w, h, true, radius, ix, iy, s1 * s1 * c * c + s2 * s2 * s * s, s1 * s1 * s * s + s2 * s2 * c * c, (s1 * s1 - s2 * s2) * c * s, FG.amp, FG.bg);
+    } else {
+      const cx = <i32>Math.round(ix), cy = <i32>Math.round(iy);
+      let pk = -Infinity;
+      for (let yy = max(0, cy - 1); yy <= min(h - 1, cy + 1); yy++) for (let xx = max(0, cx - 1); xx <= min(w - 1, cx + 1); xx++) {
+        const v = f32at(ST, yy * w + xx);
+        if (isFinite(v) && v > pk) pk = v;
+      }
+      runFit(FM, w, h, true, radius, ix, iy, ixx, iyy, ixy, isFinite(pk) ? pk : 0, 0);
+    }
+  }
+  const gOk = doG && FG.ok, mOk = doM && FM.ok;
+  let f: Fit | null = null;
+  if (gOk && mOk) {
+    const nFit = FM.n;
+    const chi2M = FM.chi2r * (nFit - 8), chi2G = FG.chi2r * (nFit - 7);
+    f = (chi2G - chi2M) / FM.chi2r > F_MOFFAT ? FM : FG;
+  } else if (gOk) f = FG;
+  else if (mOk) f = FM;
+
+  // the moments again on the stamp less a significant fit background (see measureStarJs)
+  if (f !== null && f.bg != 0) {
+    const nFit = f.n;
+    if (nFit > 0 && Math.abs(f.bg) > (3 * Math.sqrt(skyVar)) / Math.sqrt(nFit)) {
+      const lv = f.bg;
+      for (let i = 0; i < n; i++) unchecked(LIFT[i] = <f32>(<f64>unchecked(ST[i]) - lv));
+      const s0 = momOk ? Math.sqrt(0.5 * (mxx + myy)) : Math.sqrt(f.fMaj * f.fMin) / FWHM_PER_SIGMA;
+      const o2 = runMoments(LIFT, w, h, momOk ? mx : f.x, momOk ? my : f.y, s0);
+      if (momGood(o2)) {
+        mo = o2; momOk = true; momLifted = true;
+        mx = load<f64>(mo); my = load<f64>(mo + 8); mxx = load<f64>(mo + 16); myy = load<f64>(mo + 24); mxy = load<f64>(mo + 32);
+        me1 = load<f64>(mo + 40); me2 = load<f64>(mo + 48); mflux = load<f64>(mo + 56); mcx = load<f64>(mo + 64); mcy = load<f64>(mo + 72);
+      }
+    }
+  }
+
+  // HFD about the moments centre, out to 4 FWHM of the fit, on the stamp less its ring sky
+  const hx = momOk ? mx : f !== null ? f.x : px;
+  const hy = momOk ? my : f !== null ? f.y : py;
+  const stampR = Math.min(Math.min(hx + 0.5, <f64>w - 0.5 - hx), Math.min(hy + 0.5, <f64>h - 0.5 - hy));
+  const fitFwhm = f !== null ? Math.sqrt(f.fMaj * f.fMin) : NaN;
+  const maxR = isFinite(fitFwhm) ? Math.min(stampR, Math.max(5, 4 * fitFwhm)) : stampR;
+  const r50Guess = momOk ? 1.1774 * Math.sqrt(0.5 * (mxx + myy)) : 1.1774 * sigmaGuess;
+  memory.copy(hfdStamp(), changetype<usize>(ST), <usize>n * 4);
+  if (maxR > 6) {
+    const r0 = (maxR - 2) * (maxR - 2), r1 = maxR * maxR;
+    const ya = <i32>Math.max(0, Math.ceil(hy - maxR)), yb = <i32>Math.min(<f64>(h - 1), Math.floor(hy + maxR));
+    const xa = <i32>Math.max(0, Math.ceil(hx - maxR)), xb = <i32>Math.min(<f64>(w - 1), Math.floor(hx + maxR));
+    let nr = 0;
+    for (let j = ya; j <= yb; j++) {
+      const dy2 = (<f64>j - hy) * (<f64>j - hy);
+      for (let i = xa; i <= xb; i++) {
+        const d = (<f64>i - hx) * (<f64>i - hx) + dy2;
+        const v = unchecked(ST[j * w + i]);
+        if (d >= r0 && d <= r1 && v == v) { unchecked(RING[nr] = v); nr++; }
+      }
+    }
+    if (nr >= 12) {
+      const sky = selectKth(nr, nr >> 1);
+      if (isFinite(sky) && sky != 0) {
+        const hs = hfdStamp();
+        for (let i = 0; i < n; i++) store<f32>(hs + <usize>i * 4, <f32>(<f64>unchecked(ST[i]) - sky));
+      }
+    }
+  }
+  memory.copy(hfdVar(), changetype<usize>(VAR), <usize>n * 4);
+  hfd(w, h, hx, hy, maxR, 2, 0, r50Guess > 0 ? r50Guess : 0);
+  const ho = hfdOut();
+  unchecked(OUT[18] = load<f64>(ho)); unchecked(OUT[19] = load<f64>(ho + 16));
+
+  unchecked(OUT[20] = momOk ? 1 : 0);
+  if (momOk) {
+    memory.copy(momStamp(), changetype<usize>(momLifted ? LIFT : ST), <usize>n * 4);
+    memory.copy(momVar(), changetype<usize>(VAR), <usize>n * 4);
+    momentErrors(w, h, 2, 0, mx, my, mxx, myy, mxy);
+    const eo = momOut();
+    unchecked(OUT[30] = load<f64>(eo + 96)); unchecked(OUT[31] = load<f64>(eo + 104));
+    unchecked(OUT[28] = load<f64>(eo + 112)); unchecked(OUT[29] = load<f64>(eo + 120));
+    unchecked(OUT[21] = mxx); unchecked(OUT[22] = myy); unchecked(OUT[23] = mxy); unchecked(OUT[24] = me1); unchecked(OUT[25] = me2);
+    unchecked(OUT[26] = mcx); unchecked(OUT[27] = mcy);
+  }
+  if (f !== null) {
+    unchecked(OUT[4] = f === FM ? 2 : 1);
+    unchecked(OUT[5] = f.x); unchecked(OUT[6] = f.y); unchecked(OUT[7] = f.flux); unchecked(OUT[8] = f.snr);
+    unchecked(OUT[9] = f.fMaj); unchecked(OUT[10] = f.fMin); unchecked(OUT[11] = f.theta); unchecked(OUT[12] = f.beta);
+    unchecked(OUT[13] = f.ex); unchecked(OUT[14] = f.ey); unchecked(OUT[15] = f.eMean); unchecked(OUT[16] = f.eEll); unchecked(OUT[17] = f.eTheta);
+    return;
+  }
+  if (!momOk) { unchecked(OUT[4] = 0); return; }
+  // the moments' ellipse (momentsToEllipse) and its Gaussian's matched-filter SNR
+  unchecked(OUT[4] = 3);
+  const mean = 0.5 * (mxx + myy);
+  const d = Math.sqrt(0.25 * (mxx - myy) * (mxx - myy) + mxy * mxy);
+  let th = 0.5 * Math.atan2(2 * mxy, mxx - myy) * (180 / Math.PI);
+  if (th <= -90) th += 180;
+  const det = mxx * myy - mxy * mxy;
+  const amp = mflux / (2 * Math.PI * Math.sqrt(det));
+  let s: f64 = 0;
+  for (let y = 0; y < h; y++) {
+    for (let x = 0; x < w; x++) {
+      const v = f32at(VAR, y * w + x);
+      if (!(v > 0) || !isFinite(v)) continue;
+      const dx = <f64>x - mx, dy = <f64>y - my;
+      const mk = amp * Math.exp((-0.5 * (myy * dx * dx - 2 * mxy * dx * dy + mxx * dy * dy)) / det);
+      s += (mk * mk) / v;
+    }
+  }
+  unchecked(OUT[5] = mx); unchecked(OUT[6] = my); unchecked(OUT[7] = mflux); unchecked(OUT[8] = Math.sqrt(s));
+  unchecked(OUT[9] = Math.sqrt(mean + d)); unchecked(OUT[10] = Math.sqrt(Math.max(mean - d, 0))); // rms axes a, b
+  unchecked(OUT[11] = th);
+  unchecked(OUT[13] = unchecked(OUT[30])); unchecked(OUT[14] = unchecked(OUT[31]));
+}
