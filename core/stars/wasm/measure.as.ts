@@ -116,6 +116,17 @@ function runFit(f: Fit, w: i32, h: i32, moffat: bool, radius: f64, ix: f64, iy: 
   f.ok = usable && f.snr >= MIN_FIT_SNR;
 }
 
+/** Start amplitude without a Gaussian fit: the largest finite pixel of the 3x3 box about (x, y), background 0 (startLevels in ../psf-fit.ts). */
+function peakNear(w: i32, h: i32, x: f64, y: f64): f64 {
+  const cx = <i32>Math.round(x), cy = <i32>Math.round(y);
+  let pk = -Infinity;
+  for (let yy = max(0, cy - 1); yy <= min(h - 1, cy + 1); yy++) for (let xx = max(0, cx - 1); xx <= min(w - 1, cx + 1); xx++) {
+    const v = f32at(ST, yy * w + xx);
+    if (isFinite(v) && v > pk) pk = v;
+  }
+  return isFinite(pk) ? pk : 0;
+}
+
 /** The moments (adaptiveMoments) of the given stamp copy, from (x0, y0) with sigma0; OUT of moments.as. */
 function runMoments(src: StaticArray<f32>, w: i32, h: i32, x0: f64, y0: f64, s0: f64): usize {
   memory.copy(momStamp(), changetype<usize>(src), <usize>(w * h) * 4);
@@ -240,14 +251,7 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
   const doG = fitIt && model != 2, doM = fitIt && model != 1;
   FG.ok = false; FM.ok = false; FG.converged = false;
   if (doG) {
-    // start amplitude: the peak of the 3x3 box about the start, background 0 (startLevels)
-    const cx = <i32>Math.round(ix), cy = <i32>Math.round(iy);
-    let pk = -Infinity;
-    for (let yy = max(0, cy - 1); yy <= min(h - 1, cy + 1); yy++) for (let xx = max(0, cx - 1); xx <= min(w - 1, cx + 1); xx++) {
-      const v = f32at(ST, yy * w + xx);
-      if (isFinite(v) && v > pk) pk = v;
-    }
-    runFit(FG, w, h, false, radius, ix, iy, ixx, iyy, ixy, isFinite(pk) ? pk : 0, 0);
+    runFit(FG, w, h, false, radius, ix, iy, ixx, iyy, ixy, peakNear(w, h, ix, iy), 0);
   }
   if (doM) {
     if (doG && FG.converged) {
@@ -256,13 +260,7 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
       const t = (FG.theta * Math.PI) / 180, c = Math.cos(t), s = Math.sin(t);
       runFit(FM, w, h, true, radius, ix, iy, s1 * s1 * c * c + s2 * s2 * s * s, s1 * s1 * s * s + s2 * s2 * c * c, (s1 * s1 - s2 * s2) * c * s, FG.amp, FG.bg);
     } else {
-      const cx = <i32>Math.round(ix), cy = <i32>Math.round(iy);
-      let pk = -Infinity;
-      for (let yy = max(0, cy - 1); yy <= min(h - 1, cy + 1); yy++) for (let xx = max(0, cx - 1); xx <= min(w - 1, cx + 1); xx++) {
-        const v = f32at(ST, yy * w + xx);
-        if (isFinite(v) && v > pk) pk = v;
-      }
-      runFit(FM, w, h, true, radius, ix, iy, ixx, iyy, ixy, isFinite(pk) ? pk : 0, 0);
+      runFit(FM, w, h, true, radius, ix, iy, ixx, iyy, ixy, peakNear(w, h, ix, iy), 0);
     }
   }
   const gOk = doG && FG.ok, mOk = doM && FM.ok;
