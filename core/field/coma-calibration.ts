@@ -15,6 +15,8 @@
  * Everything scales with s, so the results are tabulated against x = S / s.
  */
 
+import { STORED_CALIBRATION } from './calibration-tables.gen.ts';
+
 export interface AdaptiveSpot {
   /** tr W in units of s^2 (2 for x = 0). */
   T: number;
@@ -145,6 +147,12 @@ let table: { x: Float64Array; T: Float64Array; D: Float64Array; c: Float64Array 
 
 export function comaTable(): { x: Float64Array; T: Float64Array; D: Float64Array; c: Float64Array } {
   if (table) return table;
+  table = TABLES_FROM_SOURCES ? computeComaTable() : storedComa() ?? computeComaTable();
+  return table;
+}
+
+/** comaTable ray-traced afresh (bin/build-calibration.ts stores it; the tests compare the two). */
+export function computeComaTable(): { x: Float64Array; T: Float64Array; D: Float64Array; c: Float64Array } {
   const x = new Float64Array(NX);
   const T = new Float64Array(NX);
   const D = new Float64Array(NX);
@@ -154,8 +162,22 @@ export function comaTable(): { x: Float64Array; T: Float64Array; D: Float64Array
     const r = adaptiveComaSpot(x[i]);
     T[i] = r.T; D[i] = r.D; c[i] = r.c;
   }
-  table = { x, T, D, c };
-  return table;
+  return { x, T, D, c };
+}
+
+// The tables take about 0.2 s of ray tracing per process; they are stored, computed by the code
+// here, in calibration-tables.gen.ts (`npm run build:calibration`), and
+// test/unit/calibration-tables.test.ts checks the stored values are what the code computes now,
+// bit for bit. SKYLOUPE_TABLES=compute ray-traces them instead.
+const TABLES_FROM_SOURCES = typeof process !== 'undefined' && process.env?.SKYLOUPE_TABLES === 'compute';
+function f64(b64: string): Float64Array {
+  const bytes = Uint8Array.from(atob(b64), (ch) => ch.charCodeAt(0));
+  return new Float64Array(bytes.buffer, 0, bytes.length / 8);
+}
+function storedComa(): { x: Float64Array; T: Float64Array; D: Float64Array; c: Float64Array } | null {
+  const s = STORED_CALIBRATION.coma;
+  if (!s || STORED_CALIBRATION.nx !== NX || STORED_CALIBRATION.xmax !== XMAX) return null;
+  return { x: f64(s.x), T: f64(s.T), D: f64(s.D), c: f64(s.c) };
 }
 
 function interp(xs: Float64Array, ys: Float64Array, v: number): number {
@@ -290,6 +312,14 @@ export function defocusTable(eps: number): GainTable {
   const key = Math.round(eps * 1000) / 1000;
   const hit = defocusTabs.get(key);
   if (hit) return hit;
+  const stored = STORED_CALIBRATION.defocus[String(key)];
+  const tab = !TABLES_FROM_SOURCES && stored ? { y: f64(stored.y), H: f64(stored.H) } : computeDefocusTable(key);
+  defocusTabs.set(key, tab);
+  return tab;
+}
+
+/** defocusTable ray-traced afresh for one obstruction (rounded to 0.001). */
+export function computeDefocusTable(key: number): GainTable {
   const n = 48;
   const y = new Float64Array(n);
   const H = new Float64Array(n);
@@ -299,9 +329,7 @@ export function defocusTable(eps: number): GainTable {
     y[i] = q2;
     H[i] = i === 0 ? 1 : (adaptiveDefocusT(d, key) - 2) / q2;
   }
-  const tab = { y, H };
-  defocusTabs.set(key, tab);
-  return tab;
+  return { y, H };
 }
 
 /** H(y) and dH/dy for the adaptive defocus gain (see defocusTable). */
