@@ -53,9 +53,10 @@ let MOMS = new Float32Array(0); // the moments' sky-subtracted stamp
  * Moments: adaptive, on the stamp as given; measured again on the stamp less the chosen fit's
  * background where that background is significant (sky the mesh missed, see below).
  *
- * Fits: none for a detection flagged 'hot-pixel' (see below); otherwise started from the adaptive moments (the Moffat from the Gaussian fit's shape), over
- * the pixels within max(4, 2.5 x start FWHM along the major axis) of the moments centre, the
- * same pixels for both models. The models are evaluated at pixel centres, so FWHMs describe
+ * Fits: none for a detection flagged 'hot-pixel' (see below); otherwise started from the
+ * adaptive moments (the Moffat from the Gaussian fit's shape), over the pixels within
+ * max(4, 2.5 x start FWHM along the major axis) of the moments centre, the same pixels for
+ * both models. The models are evaluated at pixel centres, so FWHMs describe
  * the star as recorded, pixel box included (see psf-fit.ts). A fit counts only if it
  * converged with a positive amplitude, a centre inside the stamp, a size below the stamp's
  * and a matched-filter SNR >= 3. Pixels that are NaN or +-Infinity count as missing ('edge').
@@ -113,8 +114,9 @@ function measureStarWasm(k: MeasureKernel, input: StampInput, opts?: MeasureOpti
     return emptyStar(flags, ox + (w - 1) / 2, oy + (h - 1) / 2);
   }
   const model = o[4];
-  if (model === 0 || model === 3) addFlag(flags, 'fit-failed');
-  if (model === 0) return emptyStar(flags, ox + o[2], oy + o[3], o[18]);
+  const fitIt = !input.flags.includes('hot-pixel');
+  if ((model === 0 || model === 3) && fitIt) addFlag(flags, 'fit-failed');
+  if (model === 0) return emptyStar(flags, ox + o[2], oy + o[3], o[18], fitIt);
   const nan = Number.NaN;
   const momOk = o[20] === 1;
   const moments = momOk ? { ixx: o[21], iyy: o[22], ixy: o[23], e1: o[24], e2: o[25] } : { ixx: nan, iyy: nan, ixy: nan, e1: nan, e2: nan };
@@ -204,7 +206,8 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   // A single-pixel spike (detection's 'hot-pixel') is narrower than any PSF of the optics, so
   // no PSF model describes it: the fits would only run to their iteration cap (on the bench
   // frame these 7 % of candidates took half of all fit iterations) and fail or collapse to a
-  // point. It keeps its moments and HFD for the star table, and is never used for the field.
+  // point. It keeps its moments and HFD for the star table, and is never used for the field;
+  // 'fit-failed' is not added (no fit was tried; 'hot-pixel' already sets it aside).
   const fitIt = !input.flags.includes('hot-pixel');
   // Fit window: 2.5 x the start FWHM along the major axis (at least 4 px) about the start
   // centre, the same for both models so that their chi2 compare (a beta = 2.5 Moffat is at
@@ -231,7 +234,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
     fit = (chi2G - chi2M) / fM.chi2Reduced > F_MOFFAT ? fM : fG;
   } else if (gOk) fit = fitG;
   else if (mOk) fit = fitM;
-  if (!fit) addFlag(flags, 'fit-failed');
+  if (!fit && fitIt) addFlag(flags, 'fit-failed');
   // The mesh sky misses structure smaller than its boxes (nebulosity, a galaxy's halo), and an
   // offset left under a star widens its moments, the sizes the field map reads. The fit's
   // background term is that local level, free of the star's own wings (the profile is fitted
@@ -325,7 +328,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       err: { x: merr.x, y: merr.y, fwhmPx: nan, ellipticity: nan, thetaDeg: nan, hfdPx: hfdErr, e1: merr.e1, e2: merr.e2 },
     };
   } else {
-    return emptyStar(flags, ox + px, oy + py, hfd.hfdPx);
+    return emptyStar(flags, ox + px, oy + py, hfd.hfdPx, fitIt);
   }
   // the star holds `flags` itself, so a late flag lands in it
   if (!(snr >= (opts?.minSnr ?? 10))) addFlag(flags, 'low-snr');
@@ -441,9 +444,10 @@ function addFlag(flags: StarFlag[], f: StarFlag): void {
   if (!flags.includes(f)) flags.push(f);
 }
 
-function emptyStar(flags: StarFlag[], x: number, y: number, hfdPx = Number.NaN): Star {
+/** A star without size or shape; flagged 'fit-failed' unless no fit was tried (a hot pixel). */
+function emptyStar(flags: StarFlag[], x: number, y: number, hfdPx = Number.NaN, fitTried = true): Star {
   const nan = Number.NaN;
-  addFlag(flags, 'fit-failed');
+  if (fitTried) addFlag(flags, 'fit-failed');
   return {
     x, y, flux: nan, snr: nan, fwhmPx: nan, fwhmMajorPx: nan, fwhmMinorPx: nan, ellipticity: nan, thetaDeg: nan,
     hfdPx, coma: { x: nan, y: nan }, flags, model: 'moments', moffatBeta: null,

@@ -5,7 +5,7 @@ export type StarFlag =
   | 'hot-pixel'   // single-pixel spike, narrower than the optics allow
   | 'cosmic-ray'  // sharp multi-pixel hit, narrower than the PSF
   | 'blended'     // another source within the fitting stamp
-  | 'fit-failed'  // no converged PSF fit
+  | 'fit-failed'  // no converged PSF fit (none is tried for a hot pixel)
   | 'low-snr'     // below the measurement SNR threshold
   | 'streak';     // on a long line: satellite or meteor trail, aircraft lights
 
