@@ -2,10 +2,10 @@
 // stores them (Float64 bytes, base64) in core/field/calibration-tables.gen.ts, written
 // atomically: `npm run build:calibration` after changing the ray tracing or the grids.
 // test/unit/calibration-tables.test.ts checks the stored tables are what the code computes now.
-import { renameSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { computeComaTable, computeDefocusTable } from '../core/field/coma-calibration.ts';
+import { writeFileAtomic } from '../core/report/save.ts';
 
 /** Obstructions stored (0: lenses and refractors); others are ray-traced when asked for. */
 export const STORED_OBSTRUCTIONS = [0];
@@ -26,8 +26,6 @@ export function calibrationModule(): string {
 
 if (process.argv[1] && path.resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {
   const target = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../core/field/calibration-tables.gen.ts');
-  const tmp = `${target}.tmp-${process.pid}`;
-  writeFileSync(tmp, calibrationModule());
-  renameSync(tmp, target);
+  await writeFileAtomic(target, calibrationModule());
   process.stdout.write(`${path.relative(process.cwd(), target)} written\n`);
 }

@@ -12,13 +12,13 @@ const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 /** Each kernel: its AssemblyScript source, the generated module, and the constant names in it. */
 export const WASM_MODULES = [
   { source: 'core/stars/wasm/psf-fit.as.ts', module: 'core/stars/wasm/psf-fit.wasm.ts', name: 'PSF_FIT' },
-  { source: 'core/image/wasm/sky-stats.as.ts', module: 'core/image/wasm/sky-stats.wasm.ts', name: 'SKY_STATS' },
+  { source: 'core/image/wasm/sky-stats.as.ts', module: 'core/image/wasm/sky-stats.wasm.ts', name: 'SKY_STATS', imports: ['core/image/wasm/select.as.ts'] },
   { source: 'core/stars/wasm/moments.as.ts', module: 'core/stars/wasm/moments.wasm.ts', name: 'MOMENTS' },
   { source: 'core/stars/wasm/hfd.as.ts', module: 'core/stars/wasm/hfd.wasm.ts', name: 'HFD' },
   { source: 'core/image/wasm/convolve.as.ts', module: 'core/image/wasm/convolve.wasm.ts', name: 'CONVOLVE' },
   // the per-star kernel, built with the three it calls
   { source: 'core/stars/wasm/measure.as.ts', module: 'core/stars/wasm/measure.wasm.ts', name: 'MEASURE',
-    imports: ['core/stars/wasm/psf-fit.as.ts', 'core/stars/wasm/moments.as.ts', 'core/stars/wasm/hfd.as.ts'] },
+    imports: ['core/stars/wasm/psf-fit.as.ts', 'core/stars/wasm/moments.as.ts', 'core/stars/wasm/hfd.as.ts', 'core/image/wasm/select.as.ts'] },
 ].map((m) => ({ ...m, source: path.join(ROOT, m.source), module: path.join(ROOT, m.module), imports: (m.imports ?? []).map((f) => path.join(ROOT, f)) }));
 
 /** The compiled module's bytes for a source as it is now. */

@@ -106,7 +106,8 @@ function measureStarWasm(k: MeasureKernel, input: StampInput, opts?: MeasureOpti
   const ox = input.originX, oy = input.originY;
   k.stamp.set(input.stamp.subarray(0, w * h));
   const gain = input.gain !== null && input.gain > 0 && Number.isFinite(input.gain) ? input.gain : 0;
-  k.run(w, h, input.skyVariance, gain, input.sigmaGuessPx, MODEL_CODE[opts?.model ?? 'auto'], input.flags.includes('hot-pixel') ? 0 : 1);
+  const fitIt = triesFit(input);
+  k.run(w, h, input.skyVariance, gain, input.sigmaGuessPx, MODEL_CODE[opts?.model ?? 'auto'], fitIt ? 1 : 0);
   const o = k.out;
   if (o[1] === 1) addFlag(flags, 'edge');
   if (o[0] === 1) {
@@ -114,7 +115,6 @@ function measureStarWasm(k: MeasureKernel, input: StampInput, opts?: MeasureOpti
     return emptyStar(flags, ox + (w - 1) / 2, oy + (h - 1) / 2);
   }
   const model = o[4];
-  const fitIt = !input.flags.includes('hot-pixel');
   if ((model === 0 || model === 3) && fitIt) addFlag(flags, 'fit-failed');
   if (model === 0) return emptyStar(flags, ox + o[2], oy + o[3], o[18], fitIt);
   const nan = Number.NaN;
@@ -208,7 +208,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   // frame these 7 % of candidates took half of all fit iterations) and fail or collapse to a
   // point. It keeps its moments and HFD for the star table, and is never used for the field;
   // 'fit-failed' is not added (no fit was tried; 'hot-pixel' already sets it aside).
-  const fitIt = !input.flags.includes('hot-pixel');
+  const fitIt = triesFit(input);
   // Fit window: 2.5 x the start FWHM along the major axis (at least 4 px) about the start
   // centre, the same for both models so that their chi2 compare (a beta = 2.5 Moffat is at
   // ~0.4 % of its peak there, a Gaussian at 2^-25; the accuracy tests did not change
@@ -442,6 +442,11 @@ function localSkySubtracted(stamp: Float32Array, w: number, h: number, x: number
 /** Adds f once (a plain array: a Set here made the optimised code bail out on every new call site). */
 function addFlag(flags: StarFlag[], f: StarFlag): void {
   if (!flags.includes(f)) flags.push(f);
+}
+
+/** No PSF fit for a detection flagged 'hot-pixel' (see measureStarJs). */
+function triesFit(input: StampInput): boolean {
+  return !input.flags.includes('hot-pixel');
 }
 
 /** A star without size or shape; flagged 'fit-failed' unless no fit was tried (a hot pixel). */

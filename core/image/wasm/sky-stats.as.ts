@@ -5,6 +5,8 @@
 // agree exactly and that the compiled bytes match this source. Why: compiled up front, it
 // skips the JIT warm-up every fresh worker thread pays for the JavaScript version.
 
+import { selectKth } from './select.as';
+
 const CAP: i32 = 65536;
 const BUF = new StaticArray<f32>(CAP);
 // results: level, sigma, mean, median, count
@@ -14,32 +16,10 @@ export function capacity(): i32 { return CAP; }
 export function samplesPtr(): usize { return changetype<usize>(BUF); }
 export function outPtr(): usize { return changetype<usize>(OUT); }
 
-function selectKth(n: i32, k: i32): f64 {
-  let lo = 0;
-  let hi = n - 1;
-  while (lo < hi) {
-    const pivot = unchecked(BUF[(lo + hi) >> 1]);
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (unchecked(BUF[i]) < pivot) i++;
-      while (unchecked(BUF[j]) > pivot) j--;
-      if (i <= j) {
-        const t = unchecked(BUF[i]); unchecked(BUF[i] = unchecked(BUF[j])); unchecked(BUF[j] = t);
-        i++; j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return <f64>unchecked(BUF[k]);
-  }
-  return <f64>unchecked(BUF[k]);
-}
-
 function median(n: i32): f64 {
   if (n <= 0) return NaN;
   const h = n >> 1;
-  const upper = selectKth(n, h);
+  const upper = selectKth(BUF, n, h);
   if (n & 1) return upper;
   let lower: f64 = -Infinity;
   for (let i = 0; i < h; i++) { const v = <f64>unchecked(BUF[i]); if (v > lower) lower = v; }
@@ -58,7 +38,7 @@ export function clipped(n: i32, kappa: f64, maxIter: i32): void {
     for (let i = 0; i < count; i++) { const v = <f64>unchecked(BUF[i]); s += v; s2 += v * v; }
     mean = s / <f64>count;
     sigma = Math.sqrt(Math.max(0, s2 / <f64>count - mean * mean));
-    med = count > 64 ? selectKth(count, count >> 1) : median(count);
+    med = count > 64 ? selectKth(BUF, count, count >> 1) : median(count);
     if (!(sigma > 0)) break;
     const lo = med - kappa * sigma;
     const hi = med + kappa * sigma;

@@ -10,6 +10,7 @@
 import { fit, stampPtr as fitStamp, variancePtr as fitVar, outPtr as fitOut, covariance } from './psf-fit.as';
 import { moments, momentErrors, stampPtr as momStamp, variancePtr as momVar, outPtr as momOut } from './moments.as';
 import { hfd, stampPtr as hfdStamp, variancePtr as hfdVar, outPtr as hfdOut } from './hfd.as';
+import { selectKth } from '../../image/wasm/select.as';
 
 const CAP: i32 = 16384;
 const LN2: f64 = 0.6931471805599453;
@@ -64,11 +65,8 @@ function shapeErr(cov: usize, m: i32, g4: f64, g5: f64, g6: f64): f64 {
   return Math.sqrt(Math.max(v, 0));
 }
 
-/** One PSF fit on ST with VAR over the window, then finish's derived quantities and the usable test. */
+/** One PSF fit (the stamp and variance already in the fit kernel), then finish's derived quantities and the usable test. */
 function runFit(f: Fit, w: i32, h: i32, moffat: bool, radius: f64, ix: f64, iy: f64, ixx: f64, iyy: f64, ixy: f64, amp: f64, bg: f64): void {
-  const n = w * h;
-  memory.copy(fitStamp(), changetype<usize>(ST), <usize>n * 4);
-  memory.copy(fitVar(), changetype<usize>(VAR), <usize>n * 4);
   const status = fit(w, h, moffat, 100, radius, -1, ix, iy, ixx, iyy, ixy, amp, bg);
   const o = fitOut();
   const m: i32 = moffat ? 8 : 7;
@@ -136,24 +134,6 @@ function runMoments(src: StaticArray<f32>, w: i32, h: i32, x0: f64, y0: f64, s0:
 
 @inline function momGood(o: usize): bool {
   return load<f64>(o + 80) == 1 && load<f64>(o + 56) > 0 && load<f64>(o + 16) > 0 && load<f64>(o + 24) > 0;
-}
-
-/** k-th smallest of RING[0..n) (quickselect, as core/image/stats.ts selectKth). */
-function selectKth(n: i32, k: i32): f64 {
-  let lo = 0, hi = n - 1;
-  while (lo < hi) {
-    const pivot = unchecked(RING[(lo + hi) >> 1]);
-    let i = lo, j = hi;
-    while (i <= j) {
-      while (unchecked(RING[i]) < pivot) i++;
-      while (unchecked(RING[j]) > pivot) j--;
-      if (i <= j) { const t = unchecked(RING[i]); unchecked(RING[i] = unchecked(RING[j])); unchecked(RING[j] = t); i++; j--; }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return <f64>unchecked(RING[k]);
-  }
-  return <f64>unchecked(RING[k]);
 }
 
 /** Sky variance from the stamp border, (1.4826 MAD)^2 (measure.ts borderVariance). */
@@ -249,7 +229,10 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
   const lmax = 0.5 * (ixx + iyy) + Math.sqrt(0.25 * (ixx - iyy) * (ixx - iyy) + ixy * ixy);
   const radius = Math.max(4, 2.5 * FWHM_PER_SIGMA * Math.sqrt(lmax));
   const doG = fitIt && model != 2, doM = fitIt && model != 1;
-  FG.ok = false; FM.ok = false; FG.converged = false;
+  if (doG || doM) {
+    memory.copy(fitStamp(), changetype<usize>(ST), <usize>n * 4);
+    memory.copy(fitVar(), changetype<usize>(VAR), <usize>n * 4);
+  }
   if (doG) {
     runFit(FG, w, h, false, radius, ix, iy, ixx, iyy, ixy, peakNear(w, h, ix, iy), 0);
   }
@@ -310,7 +293,7 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
       }
     }
     if (nr >= 12) {
-      const sky = selectKth(nr, nr >> 1);
+      const sky = selectKth(RING, nr, nr >> 1);
       if (isFinite(sky) && sky != 0) {
         const hs = hfdStamp();
         for (let i = 0; i < n; i++) store<f32>(hs + <usize>i * 4, <f32>(<f64>unchecked(ST[i]) - sky));

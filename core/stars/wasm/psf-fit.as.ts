@@ -53,6 +53,15 @@ function validShape(p: StaticArray<f64>, moffat: bool, w: i32, h: i32): bool {
 
 @inline function hsum(v: v128): f64 { return f64x2.extract_lane(v, 0) + f64x2.extract_lane(v, 1); }
 
+/** Stores the Gaussian profile e at pixel k and returns the pixel's weighted squared residual. */
+@inline function gaussPixel(k: i32, e: f64, bg: f64, amp: f64): f64 {
+  unchecked(PROF[k] = e);
+  const wk = unchecked(WT[k]);
+  if (wk == 0) return 0;
+  const r = unchecked(DAT[k]) - bg - amp * e;
+  return wk * r * r;
+}
+
 function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
   const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
   const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
@@ -67,6 +76,7 @@ function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
       for (let x = xa; x <= xb; x++) {
         const k = row + x;
         const wk = unchecked(WT[k]);
+        // zeros where there is no weight: the SIMD normal equations read these lanes too
         if (wk == 0) { unchecked(PROF[k] = 0); unchecked(LNU[k] = 0); unchecked(IU[k] = 0); continue; }
         const dx = <f64>x - x0;
         const u = 1 + kh * (dx * (a * dx + b2 * dy) + c * dy * dy);
@@ -91,14 +101,8 @@ function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
       let t = Math.exp(kc * dy * dy + kb * (<f64>xa - x0) * dy);
       const ratio = Math.exp(kb * dy);
       for (let x = xa; x <= xb; x++) {
-        const k = row + x;
-        const e = unchecked(COLT[x]) * t;
+        chi2 += gaussPixel(row + x, unchecked(COLT[x]) * t, bg, amp);
         t *= ratio;
-        unchecked(PROF[k] = e);
-        const wk = unchecked(WT[k]);
-        if (wk == 0) continue;
-        const r = unchecked(DAT[k]) - bg - amp * e;
-        chi2 += wk * r * r;
       }
     }
     return chi2;
@@ -107,14 +111,8 @@ function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
     const dy = <f64>y - y0;
     const row = y * w;
     for (let x = xa; x <= xb; x++) {
-      const k = row + x;
       const dx = <f64>x - x0;
-      const e = Math.exp(dx * (ka * dx + kb * dy) + kc * dy * dy);
-      unchecked(PROF[k] = e);
-      const wk = unchecked(WT[k]);
-      if (wk == 0) continue;
-      const r = unchecked(DAT[k]) - bg - amp * e;
-      chi2 += wk * r * r;
+      chi2 += gaussPixel(row + x, Math.exp(dx * (ka * dx + kb * dy) + kc * dy * dy), bg, amp);
     }
   }
   return chi2;
