@@ -73,7 +73,7 @@ describe('through focus on rendered series', () => {
   }, 240_000);
 
   it('under-corrected spherical aberration: kind, size and sign, with a tilt beside it', async () => {
-    const { r, truth } = await run({ seed: 32, focusUm: 0, aberrations: { sphericalUm: -45, tiltXUmAcross: 18 } });
+    const { r, frames, truth } = await run({ seed: 32, focusUm: 0, aberrations: { sphericalUm: -45, tiltXUmAcross: 18 } });
     console.log(`under-corrected: truth ${truth.sphericalUm}, found ${r.spherical.longitudinalUm!.toFixed(1)} +- ${r.spherical.errUm!.toFixed(1)} (${r.spherical.kind}); tilt ${r.tilt!.acrossFrameUm.x.toFixed(1)} (truth ${truth.acrossX})`);
     expect(r.spherical.kind).toBe('under-corrected');
     expect(r.spherical.significant).toBe(true);
@@ -82,6 +82,15 @@ describe('through focus on rendered series', () => {
     expect(r.spherical.transverseUm!).toBeCloseTo(r.spherical.longitudinalUm! / (2 * 4), 10);
     expect(near(r.tilt!.acrossFrameUm.x, r.tilt!.acrossFrameErrUm.x, truth.acrossX, 0.15)).toBe(true);
     expect(r.findings.find((f) => f.code === 'THROUGH_FOCUS_SPHERICAL')!.message).toMatch(/nearer the lens/);
+    // Without the f-number the blur growth through focus measures it: kappa = 1/(2 N p) (ring-model.ts).
+    const blind = runThroughFocus(frames.map((f) => ({
+      positionUm: f.positionUm, profiles: f.extras.profiles,
+      analysis: { ...f.analysis, optics: { ...f.analysis.optics, fNumber: null, source: { ...f.analysis.optics.source, fNumber: null } } },
+    })));
+    console.log(`f-number measured: ${blind.optics.fNumber!.toFixed(3)} (truth 4)`);
+    expect(blind.optics.fNumberSource).toBe('measured');
+    expect(Math.abs(blind.optics.fNumber! / 4 - 1)).toBeLessThan(0.03);
+    expect(blind.criticalFocusZone!.fNumberSource).toBe('measured');
   }, 240_000);
 
   it('over-corrected spherical aberration, and the same lens stopped down: LSA scales as (N1/N2)^2, TSA as (N1/N2)^3', async () => {

@@ -153,6 +153,21 @@ describe('through focus on the analytic moment model', () => {
     expect(mv[0] + mv[3]).toBeCloseTo(0, 6);
   });
 
+  it('says how far each adjuster of a tilt plate must move, and in turns of its screw', () => {
+    const tilt = { x: 20 / ((W * P_UM) / 1000), y: 0 };
+    const cx = (W - 1) / 2, cy = (H - 1) / 2;
+    // Three adjusters at 0, 120 and 240 degrees on a circle of 400 px about the centre.
+    const adjusters = [0, 120, 240].map((d) => ({ name: `${d}`, xPx: cx + 400 * Math.cos((d * Math.PI) / 180), yPx: cy + 400 * Math.sin((d * Math.PI) / 180) }));
+    const r = throughFocus(series(P, 0, { tiltUmPerMm: tilt }), { adjusters, screwPitchMm: 0.5 });
+    // Best focus falls by 20 um across the width: at +400 px it is 20 * 400 / W lower, so that
+    // adjuster must bring the sensor toward the lens by that much (negative = toward).
+    const m = r.tilt!.moves;
+    expect(Math.abs(m[0].moveUm - -20 * 400 / W)).toBeLessThan(3 * m[0].moveErrUm + 0.3);
+    expect(Math.abs(m[1].moveUm - 20 * 200 / W)).toBeLessThan(3 * m[1].moveErrUm + 0.3);
+    expect(m[0].turns!).toBeCloseTo(m[0].moveUm / 500, 10);
+    expect(m[0].moveUm + m[1].moveUm + m[2].moveUm).toBeCloseTo(0, 6);
+  });
+
   it('recovers curvature and astigmatism (S - T separation) at the corners', () => {
     const r = throughFocus(series(P, 10, { curvatureUm: 12, astigUm: 10 }));
     // The generator's curvatureUm is the focus error at field height 1: best focus there is 12 um nearer.
