@@ -6,7 +6,7 @@
 import type { CfaPattern, Frame } from '../frame/types.ts';
 import { toMeasurePlane } from '../frame/plane.ts';
 import type { Star } from '../stars/types.ts';
-import { apertureFor, starProfile, type StarProfile } from './profile.ts';
+import { apertureFor, PROFILE_FRACTIONS, starProfile, type StarProfile } from './profile.ts';
 
 /** A square cut-out around a star, full-resolution frame coordinates of its first pixel. */
 export interface StarStamp {
@@ -31,18 +31,30 @@ export interface FrameExtras {
 /** Up to this many stamps per cell of a 3 x 3 grid (the brightest clean stars). */
 const STAMPS_PER_CELL = 6;
 const MAX_STAMP_HALF = 40;
+/** Stars profiled per frame at most, and how far from the centre (half-diagonals) their light radii are measured. */
+const MAX_STARS = 5000;
+export const RADII_WITHIN = 0.6;
 
 export function frameExtras(frame: Frame, analysis: { readonly stars: readonly Star[]; readonly frame: { readonly cfa: CfaPattern | null } }): FrameExtras {
   const plane = toMeasurePlane(frame, { cfa: analysis.frame.cfa });
   const k = plane.scale, off = plane.offset;
   const toPlane = (v: number) => (v - off) / k;
-  const profiles = analysis.stars.map((s) => {
-    if (s.flags.length !== 0 || !Number.isFinite(s.x) || !Number.isFinite(s.y)) return null;
+  // The light radii serve the spherical aberration, read near the centre (through-focus.ts: zones
+  // within half the half-diagonal); every clean star gets its second moments. At most MAX_STARS
+  // stars (the most significant) are profiled.
+  const cx = (frame.width - 1) / 2, cy = (frame.height - 1) / 2, half = 0.5 * Math.hypot(frame.width, frame.height);
+  const chosen = new Set(analysis.stars.map((s, i) => ({ s, i })).filter(({ s }) => s.flags.length === 0 && Number.isFinite(s.x) && Number.isFinite(s.y))
+    .sort((a, b) => b.s.snr - a.s.snr).slice(0, MAX_STARS).map(({ i }) => i));
+  const profiles = analysis.stars.map((s, i) => {
+    if (!chosen.has(i)) return null;
     const x = toPlane(s.x), y = toPlane(s.y);
     const hfd = Number.isFinite(s.hfdPx) ? s.hfdPx / k : NaN;
-    // The aperture follows the star's own half-light radius, once (the pipeline's HFD can be off for wide discs).
-    let p = starProfile(plane.data, plane.width, plane.height, x, y, hfd);
-    if (p && Number.isFinite(p.radiiPx[1])) p = starProfile(plane.data, plane.width, plane.height, x, y, 2 * p.radiiPx[1]) ?? p;
+    const rms = Math.sqrt(s.moments.ixx + s.moments.iyy) / k;
+    const radii = Math.hypot(s.x - cx, s.y - cy) <= RADII_WITHIN * half;
+    // First pass: the aperture from the pipeline's (robust) adaptive moments; then once more with
+    // the aperture that follows the star's own half-light radius.
+    let p = starProfile(plane.data, plane.width, plane.height, x, y, hfd, PROFILE_FRACTIONS, { rmsPx: rms });
+    if (p && Number.isFinite(p.radiiPx[1])) p = starProfile(plane.data, plane.width, plane.height, x, y, 2 * p.radiiPx[1], PROFILE_FRACTIONS, { radii }) ?? p;
     if (!p) return null;
     return { ...p, radiiPx: p.radiiPx.map((r) => r * k), apertureRadiusPx: p.apertureRadiusPx * k, ixx: p.ixx * k * k, iyy: p.iyy * k * k, ixy: p.ixy * k * k };
   });

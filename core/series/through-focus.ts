@@ -166,7 +166,8 @@ export interface ThroughFocusResult {
     transverseUm: number | null;
     blurDiameterUm: number | null;
     blurDiameterPx: number | null;
-    zonesUsed: number;
+    /** Groups of stars near the centre (by their own best focus) whose light radii were fitted. */
+    groupsUsed: number;
     note: string | null;
   };
   /** Best focus at the frame centre, on average over the frame, and the one that keeps the worst point sharpest. */
@@ -446,25 +447,40 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
     }
   }
 
-  // Spherical aberration from the light radii near the centre.
-  const inner = zones.map((z, i) => ({ z, i })).filter(({ z }) => z.fieldHeight <= 0.5 && z.bestFocusUm !== null);
+  // Spherical aberration from the light radii near the centre. Stars are grouped by their own best
+  // focus (from the focus surface, else their zone's), not by place: a group whose stars' foci
+  // spread unevenly (curvature across a zone) would give the pooled curves a skew that looks like
+  // spherical aberration.
   const haveProfiles = frames.every((f) => f.profiles && f.profiles.length === f.stars.length);
   let sph: SphericalFit | null = null;
-  const sphZones: number[] = [];
-  if (haveProfiles && inner.length) {
-    const data = inner.map(({ z, i }) => {
-      const rs = P.map((_, f) => PROFILE_FRACTIONS.map((_, r) => medErr(members[i].map((k) => {
+  let sphGroups = 0;
+  if (haveProfiles) {
+    const focusOf = (i: number) => (surf ? surfaceAt(surf, surf.coef, pos[i].x, pos[i].y) : zones[zoneOf[i]].bestFocusUm);
+    const innerStars = pos.map((p, i) => ({ i, f: focusOf(i) }))
+      .filter(({ i, f }) => f !== null && Number.isFinite(f) && Math.hypot(pos[i].x - cx, pos[i].y - cy) <= 0.5 * g.scale) as { i: number; f: number }[];
+    const groups: { stars: number[]; focus: number }[] = [];
+    if (innerStars.length >= 8) {
+      innerStars.sort((a, b) => a.f - b.f);
+      const lo = innerStars[0].f, hi = innerStars[innerStars.length - 1].f;
+      const width = Math.max(1, (hi - lo) / 6);
+      for (let b = 0; lo + b * width <= hi; b++) {
+        const members_ = innerStars.filter(({ f }) => f >= lo + b * width && (f < lo + (b + 1) * width || (f === hi && lo + (b + 1) * width > hi)));
+        if (members_.length >= 8) groups.push({ stars: members_.map(({ i }) => i), focus: members_.reduce((a, m) => a + m.f, 0) / members_.length });
+      }
+    }
+    const data = groups.map((gr) => {
+      const rs = P.map((_, f) => PROFILE_FRACTIONS.map((_, r) => medErr(gr.stars.map((k) => {
         const t = tracks[k][f];
         return t >= 0 ? (per(f, t).radii?.[r] ?? NaN) : NaN;
       }))));
-      return { radii: rs.map((row) => row.map((v) => v.m)), errs: rs.map((row) => row.map((v) => v.e)), focusGuess: z.bestFocusUm as number };
+      return { radii: rs.map((row) => row.map((v) => v.m)), errs: rs.map((row) => row.map((v) => v.e)), focusGuess: gr.focus };
     }).filter((d) => d.radii.filter((r) => r.every(Number.isFinite)).length >= 3);
     const slope = zones.map((z) => z.hfd.slopePxPerUm).filter((v): v is number => v !== null);
     // HFD far from focus = 2 r50 = sqrt(2) kappa |delta| (ring-model.ts): kappa ~ slope / sqrt(2).
     const kappaGuess = slope.length ? median(slope) / Math.SQRT2 : 0.05;
     if (data.length) {
-      sph = fitSpherical({ positions: P, fractions: PROFILE_FRACTIONS, zones: data, obstruction: eps, kappaGuess });
-      sphZones.push(...inner.map(({ i }) => i));
+      sph = fitSpherical({ positions: P, fractions: PROFILE_FRACTIONS, groups: data, obstruction: eps, kappaGuess });
+      sphGroups = data.length;
     }
   }
   const fKnown = optics.fNumber;
@@ -487,7 +503,7 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
       notes.push(`the f-number is not given; the blur growth through focus says f/${fmt(measuredN, 2)} (give --f-number to use the lens's own)`);
     }
   }
-  const spherical = sphericalSummary(sph, fNumber, sphZones.length, haveProfiles);
+  const spherical = sphericalSummary(sph, fNumber, sphGroups, haveProfiles);
   const cfz = fNumber ? { halfWidthUm: 2.44 * (wavelengthNm / 1000) * fNumber * fNumber, wavelengthNm, fNumber, fNumberSource: fNumberSource ?? 'unknown' } : null;
   if (!cfz) notes.push('the f-number is unknown and could not be measured (no pixel size): the critical focus zone is not given (give --f-number and --pixel-size)');
 
@@ -528,10 +544,10 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   return result;
 }
 
-function sphericalSummary(f: SphericalFit | null, N: number | null, zonesUsed: number, haveProfiles: boolean): ThroughFocusResult['spherical'] {
+function sphericalSummary(f: SphericalFit | null, N: number | null, groupsUsed: number, haveProfiles: boolean): ThroughFocusResult['spherical'] {
   if (!f || !Number.isFinite(f.longitudinal) || !Number.isFinite(f.longitudinalErr)) {
     return {
-      kind: 'none', longitudinalUm: null, errUm: null, significant: false, transverseUm: null, blurDiameterUm: null, blurDiameterPx: null, zonesUsed,
+      kind: 'none', longitudinalUm: null, errUm: null, significant: false, transverseUm: null, blurDiameterUm: null, blurDiameterPx: null, groupsUsed,
       note: haveProfiles ? 'the light profiles near the centre could not be fitted' : 'spherical aberration needs the frames\' pixels (the star profiles), which these inputs lack',
     };
   }
@@ -546,7 +562,7 @@ function sphericalSummary(f: SphericalFit | null, N: number | null, zonesUsed: n
     transverseUm: N ? L / (2 * N) : null,
     blurDiameterUm: N ? Math.abs(L) / (4 * N) : null,
     blurDiameterPx: (Math.abs(L) * f.kappa) / 2,
-    zonesUsed,
+    groupsUsed,
     note: significant ? null : `not significant: ${fmt(L, 1)} +- ${fmt(e, 1)} um`,
   };
 }
