@@ -19,7 +19,7 @@ import { usage } from '../errors.ts';
 import { checkFrame, fromAnalysis, type AnalysisLike, type FrameInput } from './input.ts';
 import { matchSeries } from './match.ts';
 import { curveAt, fitCurves, starVertex, vertexOf, type CurveFit, type Vertex, type ZoneCurve } from './focus-curve.ts';
-import { drawParameters, fitSurface, meanStd, surfaceAt, surfaceRange, type FocusSurface } from './focus-surface.ts';
+import { drawParameters, fitSurface, meanStd, surfaceAt, surfaceRange } from './focus-surface.ts';
 import { fitSpherical, type SphericalFit } from './spherical.ts';
 import { PROFILE_FRACTIONS, type StarProfile } from './profile.ts';
 import type { StarStamp } from './frame-extras.ts';
@@ -456,7 +456,7 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   let sphGroups = 0;
   if (haveProfiles) {
     const focusOf = (i: number) => (surf ? surfaceAt(surf, surf.coef, pos[i].x, pos[i].y) : zones[zoneOf[i]].bestFocusUm);
-    const innerStars = pos.map((p, i) => ({ i, f: focusOf(i) }))
+    const innerStars = pos.map((_, i) => ({ i, f: focusOf(i) }))
       .filter(({ i, f }) => f !== null && Number.isFinite(f) && Math.hypot(pos[i].x - cx, pos[i].y - cy) <= 0.5 * g.scale) as { i: number; f: number }[];
     const groups: { stars: number[]; focus: number }[] = [];
     if (innerStars.length >= 8) {
@@ -536,7 +536,7 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
     fieldFocusSpreadUm: spread,
     criticalFocusZone: cfz,
     travelScale,
-    stamps: stampSeries(frames, tracks, zones, zoneOf, P, g),
+    stamps: stampSeries(frames, tracks, zones, zoneOf, P),
     notes,
     findings: [],
   };
@@ -568,7 +568,7 @@ function sphericalSummary(f: SphericalFit | null, N: number | null, groupsUsed: 
 }
 
 /** Stamps of one star across the series in the centre zone and in the zone whose focus lies farthest from the centre's. */
-function stampSeries(frames: readonly FocusFrameInput[], tracks: Int32Array[], zones: ThroughFocusZone[], zoneOf: number[], P: number[], g: Geometry): StampSeries[] {
+function stampSeries(frames: readonly FocusFrameInput[], tracks: Int32Array[], zones: ThroughFocusZone[], zoneOf: number[], P: number[]): StampSeries[] {
   if (!frames.some((f) => f.stamps?.length)) return [];
   const byIndex = frames.map((f) => new Map((f.stamps ?? []).map((s) => [s.index, s])));
   const centre = zones.reduce((b, z, i) => (z.fieldHeight < zones[b].fieldHeight ? i : b), 0);
@@ -599,7 +599,6 @@ function stampSeries(frames: readonly FocusFrameInput[], tracks: Int32Array[], z
       }),
     });
   }
-  void g;
   return out;
 }
 
