@@ -211,7 +211,13 @@ async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>, 
   try {
     for (const [k, p] of paths.entries()) {
       const frame = await readFrame(p);
-      out.push(await analyzeFrame(frame, { user, pool }));
+      try {
+        out.push(await analyzeFrame(frame, { user, pool }));
+      } catch (err) {
+        // In a series, say which frame had no stars.
+        if (err instanceof SkyloupeError && !err.message.startsWith(p)) throw new SkyloupeError(err.kind, `${p}: ${err.message}`);
+        throw err;
+      }
       onFrame?.(frame, out[k], k);
     }
   } finally {

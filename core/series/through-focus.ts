@@ -246,6 +246,10 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   const eps = opts.obstruction ?? 0;
   const notes: string[] = [];
 
+  for (const f of frames) {
+    const clean = f.stars.filter((s: Star) => s.flags.length === 0).length;
+    if (clean < 5) throw usage(`through-focus: ${f.label ?? `the frame at ${f.positionUm} um`} has ${clean} usable star${clean === 1 ? '' : 's'}: clouded, or too far out of focus; leave it out or take it nearer focus`);
+  }
   // Follow the stars.
   const match = matchSeries(frames.map((f) => f.stars));
   if (match.unmatched.length) {
@@ -688,8 +692,9 @@ export function runThroughFocus(items: readonly { positionUm: number; analysis: 
 
 export function formatThroughFocus(r: ThroughFocusResult): string {
   const lines = [`Through focus: ${r.positionsUm.length} frames from ${fmt(r.positionsUm[0], 1)} to ${fmt(r.positionsUm[r.positionsUm.length - 1], 1)} um, ${r.stars.length} stars followed, ${r.grid.cols} x ${r.grid.rows} zones`];
-  lines.push('  best focus per zone (um, from the rms-radius curves; positions larger = sensor farther from the lens):');
-  for (let row = 0; row < r.grid.rows; row++) {
+  lines.push('  best focus per zone as displayed (um, from the rms-radius curves; positions larger = sensor farther from the lens):');
+  const rowOrder = Array.from({ length: r.grid.rows }, (_, i) => (r.frame.displayTopRow === 'last' ? r.grid.rows - 1 - i : i));
+  for (const row of rowOrder) {
     lines.push('   ' + r.zones.filter((z) => z.row === row).map((z) => (z.bestFocusUm === null ? '     -      ' : `${fmt(z.bestFocusUm, 1).padStart(6)}+-${fmt(z.errUm, 1).padEnd(4)}`)).join(' '));
   }
   if (r.tilt) lines.push(`  tilt: ${fmt(r.tilt.acrossFrameUm.x, 1)} +- ${fmt(r.tilt.acrossFrameErrUm.x, 1)} um across the width, ${fmt(r.tilt.acrossFrameUm.y, 1)} +- ${fmt(r.tilt.acrossFrameErrUm.y, 1)} um across the height${r.tilt.significant ? '' : ' (not significant)'}`);

@@ -214,6 +214,11 @@ describe('bad input gets a clear message', () => {
     expect(() => throughFocus(series(P, 150, {}))).toThrow(/Extend the series toward larger positions/);
     expect(() => throughFocus(series(P, -150, {}))).toThrow(/Extend the series toward smaller positions/);
   });
+  it('a clouded frame in the series is named', () => {
+    const s = series(P, 0, {});
+    s[3] = { ...s[3], stars: s[3].stars.slice(0, 2) };
+    expect(() => throughFocus(s)).toThrow(/30 um has 2 usable stars: clouded/);
+  });
   it('frames without stars', () => {
     const s = series(P, 0, {}).map((f) => ({ ...f, stars: f.stars.slice(0, 5) }));
     expect(() => throughFocus(s)).toThrow(/at least 10|same stars/);
