@@ -39,12 +39,12 @@ export function defocusData(fa: FieldAnalysis, correction: Float64Array | null):
     v[i] = (cols.y[i] - centre.y) / geom.scale;
     T[i] = cols.T[i] - (correction ? correction[i] : 0);
   }
-  return { n, u, v, T, sig: cols.sigT, frame: null };
+  return { n, u, v, T, sig: cols.sigT, frame: null, beta: fa.core.beta };
 }
 
 function resample(d: DefocusData, pick: Int32Array): DefocusData {
   const take = (a: Float64Array) => Float64Array.from(pick, (i) => a[i]);
-  return { n: pick.length, u: take(d.u), v: take(d.v), T: take(d.T), sig: take(d.sig), frame: null };
+  return { n: pick.length, u: take(d.u), v: take(d.v), T: take(d.T), sig: take(d.sig), frame: null, beta: d.beta };
 }
 
 /** Flip all defocus terms (the single-frame twin solution). */

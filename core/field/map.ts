@@ -6,6 +6,7 @@ import { fitSpin1, fitSpin2 } from './spin.ts';
 import { fitSurface, evalSurface } from './surface.ts';
 import { adaptiveDims, radialColumns, radialProfile, zoneGrid, type RadialColumns } from './zones.ts';
 import type { FieldMap, OpticalCentre, Spin1Field, Spin2Field, XY } from './types.ts';
+import { coreProfile, type CoreProfile } from './profile.ts';
 
 export interface FieldContext {
   readonly width: number;
@@ -23,6 +24,8 @@ export interface FieldAnalysis {
   readonly centre: XY;
   /** Uniform (frame-wide) part of M removed before the radial decomposition, px^2. */
   readonly uniform: { re: number; im: number };
+  /** The seeing core's profile (Moffat beta or Gaussian), for the defocus model's gain. */
+  readonly core: CoreProfile;
 }
 
 /** Significance needed before a pattern is allowed to locate the optical centre. */
@@ -133,7 +136,7 @@ export function analyzeField(stars: readonly Star[], ctx: FieldContext): FieldAn
     spin2,
     spin1,
   };
-  return { map, cols, geom: g, rad, centre, uniform };
+  return { map, cols, geom: g, rad, centre, uniform, core: coreProfile(stars, cols) };
 }
 
 export function buildFieldMap(stars: readonly Star[], ctx: FieldContext): FieldMap {
