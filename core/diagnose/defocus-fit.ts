@@ -294,6 +294,12 @@ export function smartStarts(d: DefocusData, spec: DefocusSpec): Float64Array[] {
 
 const CHI2_1_MEDIAN = 0.454936;
 
+/** 1.4826 x the median absolute deviation (a Gaussian sigma). */
+function madSpread(v: Float64Array): number {
+  const m = median(v);
+  return 1.4826 * median(Float64Array.from(v, (x) => Math.abs(x - m)));
+}
+
 /**
  * Among solutions that fit equally well (within delta chi^2 4, about 2 sigma), take the one with
  * the largest core T0, i.e. the least defocus: a near-linear size field can also be fitted by
@@ -324,7 +330,9 @@ export function fitDefocus(d: DefocusData, spec: DefocusSpec, starts: Float64Arr
   const n = d.n;
   if (n < 8) return null;
   let robust = fixedWeights ? fixedWeights.robust : new Float64Array(n).fill(1);
-  let scatter = fixedWeights ? fixedWeights.scatter : 0;
+  // The first round starts with a floor at the spread of the sizes (MAD), so that a few stars with
+  // tiny errors (bright, clipped, odd) cannot steer it; later rounds set the floor from the residuals.
+  let scatter = fixedWeights ? fixedWeights.scatter : madSpread(d.T);
   const w = new Float64Array(n);
   const setW = () => { for (let i = 0; i < n; i++) w[i] = robust[i] / (d.sig[i] * d.sig[i] + scatter * scatter); };
   let best: ReturnType<typeof solveFrom> | null = null;
@@ -363,7 +371,11 @@ export function fitDefocus(d: DefocusData, spec: DefocusSpec, starts: Float64Arr
   }
   setW();
   const fin = solveFrom(d, w, spec, best!.params);
-  const use = fin.chi2 <= best!.chi2 + 1e-9 ? fin : best!;
+  // best.chi2 was summed under the previous round's weights: compare, and report, under the final
+  // ones (a chi^2 under other weights made a faultless field with a few outlying bright stars
+  // read as a 20-sigma tilt: the full fit's chi^2 came from a round with a wider scatter floor).
+  const bestChi2 = chi2At(d, best!.params, { robust, scatter } as DefocusFit);
+  const use = fin.chi2 <= bestChi2 + 1e-9 ? fin : { ...best!, chi2: bestChi2 };
   let neff = 0;
   for (let i = 0; i < n; i++) if (robust[i] > 0) neff++;
   const dof = Math.max(1, neff - use.active.length);

@@ -19,6 +19,7 @@ import { diagnoseCurvature } from './curvature.ts';
 import { diagnoseStopDown } from './stopdown.ts';
 import { buildFindings } from './findings.ts';
 import type { Diagnosis, Finding } from './types.ts';
+import { sizeZoneChecks, spinZoneChecks } from './zone-check.ts';
 
 export type { DiagnoseContext } from './context.ts';
 export type * from './types.ts';
@@ -35,8 +36,10 @@ const JOINT_GAIN = 25;
 export function diagnose(stars: readonly Star[], ctx: DiagnoseContext): DiagnoseResult {
   const fa = analyzeField(stars, { width: ctx.width, height: ctx.height, displayTopRow: ctx.displayTopRow });
   const u = units(ctx);
-  const trailing = diagnoseTrailing(fa);
-  let coma = diagnoseComa(fa);
+  // every fault is tested on the zone medians too, so a few odd stars cannot make it (zone-check.ts)
+  const zSpin = spinZoneChecks(fa);
+  const trailing = diagnoseTrailing(fa, zSpin);
+  let coma = diagnoseComa(fa, null, null, zSpin);
   let corrected = correctedColumns(fa, coma.correction, trailing.sizeCorrection);
   let faC = { ...fa, cols: corrected };
   let model = fitDefocusModel(faC, null);
@@ -49,18 +52,19 @@ export function diagnose(stars: readonly Star[], ctx: DiagnoseContext): Diagnose
     if (joint && joint.startChi2 - joint.chi2 >= JOINT_GAIN) {
       const p = joint.defocus;
       const disk = Float64Array.from(model.data.u, (uu, i) => Math.abs(qAt(p, uu, model!.data.v[i])) * u.blurPerQ);
-      coma = diagnoseComa(fa, disk, joint.spin1);
+      coma = diagnoseComa(fa, disk, joint.spin1, zSpin);
       corrected = correctedColumns(fa, coma.correction, trailing.sizeCorrection);
       faC = { ...fa, cols: corrected };
       model = fitDefocusModel(faC, null) ?? model;
     }
   }
   if (coma.spin1) fa.map.spin1 = coma.spin1;
-  const tilt = diagnoseTilt(faC, u, model);
+  const zSize = sizeZoneChecks(faC, corrected);
+  const tilt = diagnoseTilt(faC, u, model, zSize.tilt);
   const sym = symmetricPart(faC, corrected, model);
-  const spacing = diagnoseSpacing(sym, trailing.explainsSpin2, fa.cols.n);
+  const spacing = diagnoseSpacing(sym, trailing.explainsSpin2, fa.cols.n, zSize.spacing);
   const astigmatism = diagnoseAstigmatism(fa, sym, spacing, u, trailing.explainsSpin2);
-  const curvature = diagnoseCurvature(model, sym, u, fa.geom.scale);
+  const curvature = diagnoseCurvature(model, sym, u, fa.geom.scale, zSize.curvature);
   const stopDown = diagnoseStopDown(fa, u, model, coma);
   // Patterns across the field need stars across the field: without them, say so rather than extrapolate.
   const cells = fa.map.zones.cells;

@@ -10,6 +10,7 @@ import { axialStdDeg, axisDeg, rng, std } from '../field/stats.ts';
 import { fitDefocus, smartStarts, defaultStarts, qAt, P, type DefocusData, type DefocusFit } from './defocus-fit.ts';
 import type { Units } from './context.ts';
 import type { CornerDefocus, TiltDiagnosis } from './types.ts';
+import { robustSigma } from './zone-check.ts';
 
 const BOOTSTRAP = 24;
 /** Delta chi^2 for two extra parameters: chi^2_2 exceeds 16 with probability e^-8 = 3e-4. */
@@ -135,14 +136,14 @@ export function qRange(fa: FieldAnalysis, p: ArrayLike<number>): { min: number; 
 
 const MODEL = 'T = T0 + K (delta0 + t.r + c r^2)^2, delta = local focus error, K = (1+eps^2)/(8 N^2 p^2) (optics.md section 4)';
 
-export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | null): TiltDiagnosis {
+export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | null, zoneSig: number | null = null): TiltDiagnosis {
   const none = (note: string, supported: boolean): TiltDiagnosis => ({
     significant: false, supported, note,
     axisDeg: null, axisErrDeg: null,
     acrossFrameUm: { x: null, y: null }, acrossFrameErrUm: { x: null, y: null },
     acrossFrameBlurPx: { x: null, y: null }, acrossFrameBlurErrPx: { x: null, y: null },
     tiltMrad: null, tiltErrMrad: null, signResolved: false, bestFocusInFrame: null,
-    corners: [], worstCornerRatio: null, significance: 0, deltaChi2: 0, starsUsed: fa.cols.n, model: MODEL,
+    corners: [], worstCornerRatio: null, significance: 0, zoneSignificance: null, deltaChi2: 0, starsUsed: fa.cols.n, model: MODEL,
   });
   if (!model) return none(`too few clean stars (${fa.cols.n}) to fit a focus plane; at least 20 are needed, better a few hundred`, false);
   const g = fa.geom;
@@ -179,10 +180,12 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
   const centreFwhm = 2.354820045 * Math.sqrt(Math.max(bestT, 1e-6) / 2);
   const blurMax = Math.max(blurX, blurY);
   const relErr = Math.hypot(errX, errY) / Math.max(1e-12, Math.hypot(aq.x, aq.y));
-  const significant = dchi2 >= TILT_DCHI2 && blurMax >= TILT_MIN_BLUR_FRACTION * centreFwhm && relErr < 0.5;
+  const sigma = robustSigma(Math.sqrt(dchi2), zoneSig);
+  const significant = sigma >= Math.sqrt(TILT_DCHI2) && blurMax >= TILT_MIN_BLUR_FRACTION * centreFwhm && relErr < 0.5;
   let note: string | null = null;
   if (!u.micrometres) note = u.why;
-  if (!significant && dchi2 >= TILT_DCHI2) note = [note, 'a focus gradient is detected but too small to matter (below a tenth of the star size across the frame)'].filter(Boolean).join('; ');
+  if (!significant && dchi2 >= TILT_DCHI2 && sigma < Math.sqrt(TILT_DCHI2)) note = [note, `the stars show a focus gradient (${Math.sqrt(dchi2).toFixed(1)} sigma) that the zone medians do not confirm (${sigma.toFixed(1)} sigma): a few stars, not the frame`].filter(Boolean).join('; ');
+  else if (!significant && dchi2 >= TILT_DCHI2) note = [note, 'a focus gradient is detected but too small to matter (below a tenth of the star size across the frame)'].filter(Boolean).join('; ');
   const altBig = alts.filter((a) => Math.hypot(a.x - aq.x, a.y - aq.y) > 0.3 * Math.max(1e-9, Math.hypot(aq.x, aq.y), Math.hypot(a.x, a.y)));
   if (altBig.length) {
     const a = altBig[0];
@@ -202,7 +205,8 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
     bestFocusInFrame: range.min < 0 && range.max > 0,
     corners: cs,
     worstCornerRatio,
-    significance: Math.sqrt(dchi2),
+    significance: sigma,
+    zoneSignificance: zoneSig,
     deltaChi2: dchi2,
     starsUsed: model.data.n,
     model: MODEL,

@@ -10,12 +10,13 @@ import { axisDeg, clippedMean } from '../field/stats.ts';
 import { patternMagnitude } from '../field/spin.ts';
 import { trailLengthFromMoments } from '../field/coma-calibration.ts';
 import type { TrailingDiagnosis } from './types.ts';
+import { robustSigma, type SpinZoneChecks } from './zone-check.ts';
 
 /** Uniform part significant at this many sigma, and at least this distortion |C|/T (A/B ~ 1.02). */
-const UNIFORM_SIGMA = 5;
+export const UNIFORM_SIGMA = 5;
 const UNIFORM_MIN_E = 0.02;
 /** Field rotation: tangential rank-1 pattern with at least this distortion at the corners. */
-const ROTATION_SIGMA = 5;
+export const ROTATION_SIGMA = 5;
 const ROTATION_MIN_E = 0.03;
 
 export interface TrailingResult {
@@ -26,12 +27,12 @@ export interface TrailingResult {
   readonly explainsSpin2: boolean;
 }
 
-export function diagnoseTrailing(fa: FieldAnalysis): TrailingResult {
+export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null = null): TrailingResult {
   const s2 = fa.map.spin2;
   const Tmed = clippedMean(fa.cols.T).mean;
   const none: TrailingDiagnosis = {
     significant: false, kind: 'none', angleDeg: null, angleErrDeg: null, lengthPx: null, lengthErrPx: null, elongation: null,
-    rotation: null, significance: 0, note: null,
+    rotation: null, significance: 0, zoneSignificance: null, note: null,
   };
   if (!s2 || !(Tmed > 0)) return { diagnosis: { ...none, note: 'too few clean stars to test for trailing' }, sizeCorrection: null, explainsSpin2: false };
   const g = fa.geom;
@@ -39,7 +40,10 @@ export function diagnoseTrailing(fa: FieldAnalysis): TrailingResult {
   const aMag = Math.hypot(s2.a.re, s2.a.im);
   const tangential = s2.a.re < 0 && Math.abs(s2.a.im) < 0.5 * Math.abs(s2.a.re);
   const cRot = s2.centrePx ?? s2.farCentrePx ?? { x: g.cx, y: g.cy };
-  const rotationLike = s2.aSignificance >= ROTATION_SIGMA && tangential && spin2LooksRank1(s2) && aMag / Tmed >= ROTATION_MIN_E;
+  // significance from the stars, or from the zone medians where they say less (zone-check.ts)
+  const aSig = robustSigma(s2.aSignificance, zones?.pattern ?? null);
+  const cSig = robustSigma(s2.cSignificance, zones?.uniformElongation ?? null);
+  const rotationLike = aSig >= ROTATION_SIGMA && tangential && spin2LooksRank1(s2) && aMag / Tmed >= ROTATION_MIN_E;
   // Rotation trails leave the across-trail width at the core everywhere; astigmatism near its
   // tangential line focus is nearly rank-1 too, but its minor axis changes across the field.
   const corrRot = rotationLike ? rotationSizeCorrection(fa, cRot) : null;
@@ -60,7 +64,7 @@ export function diagnoseTrailing(fa: FieldAnalysis): TrailingResult {
         significant: true, kind: 'rotation', angleDeg: null, angleErrDeg: null,
         lengthPx: trailLengthFromMoments(aMag * (far / g.scale) ** 2, Tmed + aMag * (far / g.scale) ** 2), lengthErrPx: wtErr * far, elongation: aMag / Tmed,
         rotation: { centerPx: s2.centrePx ?? s2.farCentrePx, centerErrPx: s2.centreErrPx, angleDeg: (wt * 180) / Math.PI, angleErrDeg: (wtErr * 180) / Math.PI },
-        significance: s2.aSignificance,
+        significance: aSig, zoneSignificance: zones?.pattern ?? null,
         note: [s2.centrePx ? null : 'the rotation centre lies far outside the frame',
           'one frame cannot fully exclude astigmatism at its tangential line focus, which would turn by 90 degrees through focus; a trail does not'].filter(Boolean).join('; '),
       },
@@ -70,7 +74,7 @@ export function diagnoseTrailing(fa: FieldAnalysis): TrailingResult {
   }
   const C = s2.c;
   const cMag = Math.hypot(C.re, C.im);
-  if (s2.cSignificance >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E) {
+  if (cSig >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E) {
     // Length through the adaptive-moment trail model (L^2/12 only for unweighted moments).
     const L = trailLengthFromMoments(cMag, Tmed);
     // Errors of |C| and of its phase from the component errors.
@@ -83,7 +87,7 @@ export function diagnoseTrailing(fa: FieldAnalysis): TrailingResult {
         angleDeg: axisDeg((0.5 * Math.atan2(C.im, C.re) * 180) / Math.PI),
         angleErrDeg: ((0.5 * perpErr) / cMag) * (180 / Math.PI),
         lengthPx: L, lengthErrPx: Lerr, elongation: cMag / Tmed,
-        rotation: null, significance: s2.cSignificance,
+        rotation: null, significance: cSig, zoneSignificance: zones?.uniformElongation ?? null,
         note: 'a single elongation direction across the whole frame; if it turns by 90 degrees when you defocus slightly, it is astigmatism on the axis (pinched or misaligned optics) instead',
       },
       // A trail adds only to its own axis: T - |M| keeps the core (a no-op for a strictly uniform trail).
@@ -91,7 +95,10 @@ export function diagnoseTrailing(fa: FieldAnalysis): TrailingResult {
       explainsSpin2: false,
     };
   }
-  return { diagnosis: none, sizeCorrection: null, explainsSpin2: false };
+  const note = s2.cSignificance >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E
+    ? `the stars show a uniform elongation (${s2.cSignificance.toFixed(1)} sigma) that the zone medians do not confirm (${cSig.toFixed(1)} sigma): a few stars, not the frame`
+    : null;
+  return { diagnosis: { ...none, significance: cSig, zoneSignificance: zones?.uniformElongation ?? null, note }, sizeCorrection: null, explainsSpin2: false };
 }
 
 /**

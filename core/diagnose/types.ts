@@ -49,8 +49,10 @@ export interface TiltDiagnosis {
   corners: CornerDefocus[];
   /** Worst corner size against the best point, from the model (Gaussian-equivalent FWHM ratio). */
   worstCornerRatio: number | null;
-  /** sqrt of the chi^2 drop when the tilt terms are added to the symmetric model. */
+  /** sqrt of the chi^2 drop when the tilt terms are added to the symmetric model (stars), or the zones' if smaller. */
   significance: number;
+  /** The same test on zone medians, with their scatter (zone-check.ts); null when the zones are too few. */
+  zoneSignificance: number | null;
   deltaChi2: number;
   starsUsed: number;
   model: string;
@@ -70,6 +72,7 @@ export interface SpacingDiagnosis {
   outerERadial: number | null;
   outerERadialErr: number | null;
   significance: number;
+  zoneSignificance: number | null;
   /** The symmetric part of the corner size against the centre (FWHM-equivalent ratio), all four corners alike. */
   cornerToCentreSize: number | null;
   cornerToCentreSizeErr: number | null;
@@ -97,6 +100,7 @@ export interface ComaDiagnosis {
   /** Uniform coma length across the frame, px (collimation or decentring), when it is significant. */
   uniform: { x: number; y: number; err: number } | null;
   significance: number;
+  zoneSignificance: number | null;
   note: string | null;
 }
 
@@ -138,6 +142,7 @@ export interface CurvatureDiagnosis {
   radiusMm: number | null;
   signResolved: boolean;
   significance: number;
+  zoneSignificance: number | null;
   note: string | null;
 }
 
@@ -160,6 +165,7 @@ export interface TrailingDiagnosis {
     angleErrDeg: number;
   } | null;
   significance: number;
+  zoneSignificance: number | null;
   note: string | null;
 }
 
