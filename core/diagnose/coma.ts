@@ -18,6 +18,8 @@ import type { Spin1Field } from '../field/types.ts';
 export const COMA_SIGMA = 4;
 /** Practical floor: sagittal coma at the corners at least this fraction of the typical Gaussian-equivalent FWHM. */
 export const COMA_MIN_FRACTION = 0.15;
+/** A uniform flare within this many degrees of a pixel row or column may be the sensor's readout. */
+const PIXEL_AXIS_DEG = 10;
 /** Decentred when the coma centre is farther than this fraction of the diagonal from the frame centre. */
 const DECENTRED_FRACTION = 0.1;
 
@@ -38,7 +40,7 @@ export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = nu
   const g = fa.geom;
   const empty: ComaDiagnosis = {
     significant: false, tail: 'none', centerPx: null, centerErrPx: null, centreOffsetFraction: null, decentred: false,
-    gradientPx: null, gradientErrPx: null, cornerComaPx: null, cornerComaRatio: null, uniform: null, significance: 0, zoneSignificance: null, note: null,
+    gradientPx: null, gradientErrPx: null, cornerComaPx: null, cornerComaRatio: null, uniform: null, uniformAlongPixelAxis: false, significance: 0, zoneSignificance: null, note: null,
   };
   if (!s1) return { diagnosis: { ...empty, note: 'too few clean stars to map coma' }, correction: null, spin1: null };
   const alpha = s1.alpha;
@@ -59,9 +61,16 @@ export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = nu
   const uniformSig = !fieldSignificant && uniformSigma >= COMA_SIGMA + 1 && uMag >= minS;
   const decentred = !!(fieldSignificant && centre && s1.centreErrPx && offset !== null && offset > DECENTRED_FRACTION
     && Math.hypot(centre.x - g.cx, centre.y - g.cy) > 3 * Math.hypot(s1.centreErrPx.x, s1.centreErrPx.y));
+  // a flare along the pixel rows or columns is what a readout trail (charge transfer, bleeding) gives
+  const uAngle = (Math.atan2(s1.uniform.y, s1.uniform.x) * 180) / Math.PI;
+  const alongAxis = uniformSig && Math.abs(((uAngle % 90) + 90 + 45) % 90 - 45) < PIXEL_AXIS_DEG;
   let note: string | null = null;
   if (fieldSignificant && Math.abs(radialFrac) < 0.9) note = 'the coma vectors are partly rotated against the radius, a sign of misalignment';
-  if (!fieldSignificant && uniformSig) note = 'the same coma everywhere, centre included: collimation or a decentred element rather than field coma';
+  if (!fieldSignificant && uniformSig) {
+    note = alongAxis
+      ? 'the same flare everywhere, along a pixel row or column: a readout trail of the sensor (charge transfer, bleeding) or collimation; rotating the camera tells them apart'
+      : 'the same coma everywhere, centre included: collimation or a decentred element rather than field coma';
+  }
   const diagnosis: ComaDiagnosis = {
     significant: fieldSignificant || uniformSig,
     tail: fieldSignificant ? (alpha.re > 0 ? 'outward' : 'inward') : 'none',
@@ -78,6 +87,7 @@ export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = nu
     uniform: uniformSig ? { x: s1.uniform.x, y: s1.uniform.y, err: Math.min(s1.uniformErr, uMag / Math.max(1e-9, uniformSigma)) } : null,
     significance: Math.max(fieldSig, uniformSig ? uniformSigma : 0),
     zoneSignificance: uniformSig ? (zones?.comaUniform ?? null) : (zones?.comaField ?? null),
+    uniformAlongPixelAxis: alongAxis,
     note,
   };
   if (!diagnosis.significant) return { diagnosis, correction: null, spin1: s1 };

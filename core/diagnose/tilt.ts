@@ -113,9 +113,22 @@ export function fitDefocusModel(fa: FieldAnalysis, correction: Float64Array | nu
   return { data, full, noTilt, noCurvature, boot, alternatives: minima.map((m) => m.p) };
 }
 
-function corners(fa: FieldAnalysis): { name: string; x: number; y: number; u: number; v: number }[] {
+/**
+ * The frame's four corners; for an image circle the farthest points with sky along the four
+ * diagonals from its centre (the frame's own corners hold no sky).
+ */
+export function corners(fa: FieldAnalysis): { name: string; x: number; y: number; u: number; v: number }[] {
   const g = fa.geom;
-  const pts: [number, number][] = [[-0.5, -0.5], [g.width - 0.5, -0.5], [-0.5, g.height - 0.5], [g.width - 0.5, g.height - 0.5]];
+  let pts: [number, number][] = [[-0.5, -0.5], [g.width - 0.5, -0.5], [-0.5, g.height - 0.5], [g.width - 0.5, g.height - 0.5]];
+  if (g.circle) {
+    const c = g.circle;
+    pts = pts.map(([x, y]): [number, number] => {
+      const dx = x - c.x;
+      const dy = y - c.y;
+      const t = Math.min(1, c.r / Math.max(1e-9, Math.hypot(dx, dy)));
+      return [c.x + t * dx, c.y + t * dy];
+    });
+  }
   return pts.map(([x, y]) => ({ name: sideName(g, x - g.cx, y - g.cy), x, y, u: (x - fa.centre.x) / g.scale, v: (y - fa.centre.y) / g.scale }));
 }
 
@@ -128,6 +141,7 @@ export function qRange(fa: FieldAnalysis, p: ArrayLike<number>): { min: number; 
   for (let r = 0; r <= 16; r++) for (let c = 0; c <= 16; c++) {
     const x = -0.5 + (c / 16) * g.width;
     const y = -0.5 + (r / 16) * g.height;
+    if (g.circle && Math.hypot(x - g.circle.x, y - g.circle.y) > g.circle.r) continue;
     const q = qAt(p, (x - fa.centre.x) / g.scale, (y - fa.centre.y) / g.scale);
     min = Math.min(min, q); max = Math.max(max, q); minAbs = Math.min(minAbs, Math.abs(q));
   }

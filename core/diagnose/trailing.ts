@@ -11,6 +11,7 @@ import { patternMagnitude } from '../field/spin.ts';
 import { trailLengthFromMoments } from '../field/coma-calibration.ts';
 import type { TrailingDiagnosis } from './types.ts';
 import { robustSigma, type SpinZoneChecks } from './zone-check.ts';
+import type { PixelShape } from './pixel-shape.ts';
 
 /** Uniform part significant at this many sigma, and at least this distortion |C|/T (A/B ~ 1.02). */
 export const UNIFORM_SIGMA = 5;
@@ -27,12 +28,20 @@ export interface TrailingResult {
   readonly explainsSpin2: boolean;
 }
 
-export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null = null): TrailingResult {
+/** The uniform stretch counts as the pixels' shape when what is left of it is below this share of it (or UNIFORM_MIN_E). */
+const PIXEL_SHAPE_TOLERANCE = 0.25;
+
+/**
+ * pixelShape: the stretch the header WCS implies for round stars (pixel-shape.ts). A uniform
+ * elongation it explains (direction and size) is the detector's geometry, not trailing; only
+ * what is left beyond it is tested as a trail.
+ */
+export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null = null, pixelShape: PixelShape | null = null): TrailingResult {
   const s2 = fa.map.spin2;
   const Tmed = clippedMean(fa.cols.T).mean;
   const none: TrailingDiagnosis = {
     significant: false, kind: 'none', angleDeg: null, angleErrDeg: null, lengthPx: null, lengthErrPx: null, elongation: null,
-    rotation: null, significance: 0, zoneSignificance: null, note: null,
+    rotation: null, significance: 0, zoneSignificance: null, pixelShape: null, note: null,
   };
   if (!s2 || !(Tmed > 0)) return { diagnosis: { ...none, note: 'too few clean stars to test for trailing' }, sizeCorrection: null, explainsSpin2: false };
   const g = fa.geom;
@@ -64,7 +73,7 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
         significant: true, kind: 'rotation', angleDeg: null, angleErrDeg: null,
         lengthPx: trailLengthFromMoments(aMag * (far / g.scale) ** 2, Tmed + aMag * (far / g.scale) ** 2), lengthErrPx: wtErr * far, elongation: aMag / Tmed,
         rotation: { centerPx: s2.centrePx ?? s2.farCentrePx, centerErrPx: s2.centreErrPx, angleDeg: (wt * 180) / Math.PI, angleErrDeg: (wtErr * 180) / Math.PI },
-        significance: aSig, zoneSignificance: zones?.pattern ?? null,
+        significance: aSig, zoneSignificance: zones?.pattern ?? null, pixelShape: null,
         note: [s2.centrePx ? null : 'the rotation centre lies far outside the frame',
           'one frame cannot fully exclude astigmatism at its tangential line focus, which would turn by 90 degrees through focus; a trail does not'].filter(Boolean).join('; '),
       },
@@ -72,9 +81,19 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
       explainsSpin2: true,
     };
   }
-  const C = s2.c;
+  const C0 = s2.c;
+  const c0Mag = Math.hypot(C0.re, C0.im);
+  // The part of the uniform moment the pixels' shape explains: e_pixels T for a typical star.
+  const P = pixelShape ? { re: pixelShape.e1 * Tmed, im: pixelShape.e2 * Tmed } : { re: 0, im: 0 };
+  const pMag = Math.hypot(P.re, P.im);
+  const C = { re: C0.re - P.re, im: C0.im - P.im };
   const cMag = Math.hypot(C.re, C.im);
-  if (cSig >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E) {
+  const shape = pixelShape && pMag / Tmed >= UNIFORM_MIN_E
+    ? { axisRatio: pixelShape.axisRatio, angleDeg: pixelShape.angleDeg, source: pixelShape.source, explains: cMag / Tmed < Math.max(UNIFORM_MIN_E, PIXEL_SHAPE_TOLERANCE * pMag / Tmed) && cSig >= UNIFORM_SIGMA }
+    : null;
+  // significance of what is left after the pixels' shape (the errors are those of the whole)
+  const rSig = c0Mag > 0 ? (cSig * cMag) / c0Mag : 0;
+  if (!shape?.explains && rSig >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E) {
     // Length through the adaptive-moment trail model (L^2/12 only for unweighted moments).
     const L = trailLengthFromMoments(cMag, Tmed);
     // Errors of |C| and of its phase from the component errors.
@@ -87,18 +106,21 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
         angleDeg: axisDeg((0.5 * Math.atan2(C.im, C.re) * 180) / Math.PI),
         angleErrDeg: ((0.5 * perpErr) / cMag) * (180 / Math.PI),
         lengthPx: L, lengthErrPx: Lerr, elongation: cMag / Tmed,
-        rotation: null, significance: cSig, zoneSignificance: zones?.uniformElongation ?? null,
-        note: 'a single elongation direction across the whole frame; if it turns by 90 degrees when you defocus slightly, it is astigmatism on the axis (pinched or misaligned optics) instead',
+        rotation: null, significance: rSig, zoneSignificance: zones?.uniformElongation ?? null, pixelShape: shape,
+        note: ['a single elongation direction across the whole frame; if it turns by 90 degrees when you defocus slightly, it is astigmatism on the axis (pinched or misaligned optics) instead',
+          shape ? `beyond the ${shape.axisRatio.toFixed(2)}:1 stretch along ${shape.angleDeg.toFixed(0)} deg that the pixels' shape on the sky explains (${shape.source})` : null].filter(Boolean).join('; '),
       },
       // A trail adds only to its own axis: T - |M| keeps the core (a no-op for a strictly uniform trail).
       sizeCorrection: rotationSizeCorrection(fa, { x: g.cx, y: g.cy }),
       explainsSpin2: false,
     };
   }
-  const note = s2.cSignificance >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E
-    ? `the stars show a uniform elongation (${s2.cSignificance.toFixed(1)} sigma) that the zone medians do not confirm (${cSig.toFixed(1)} sigma): a few stars, not the frame`
-    : null;
-  return { diagnosis: { ...none, significance: cSig, zoneSignificance: zones?.uniformElongation ?? null, note }, sizeCorrection: null, explainsSpin2: false };
+  const note = shape?.explains
+    ? `every star is stretched about ${shape.axisRatio.toFixed(2)}:1 along ${shape.angleDeg.toFixed(0)} deg, as ${shape.source} says the pixels are on the sky (unequal pixel scales): the detector's geometry, not trailing`
+    : s2.cSignificance >= UNIFORM_SIGMA && c0Mag / Tmed >= UNIFORM_MIN_E && cSig < UNIFORM_SIGMA
+      ? `the stars show a uniform elongation (${s2.cSignificance.toFixed(1)} sigma) that the zone medians do not confirm (${cSig.toFixed(1)} sigma): a few stars, not the frame`
+      : null;
+  return { diagnosis: { ...none, significance: rSig, zoneSignificance: zones?.uniformElongation ?? null, pixelShape: shape, note }, sizeCorrection: null, explainsSpin2: false };
 }
 
 /**

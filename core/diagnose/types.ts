@@ -99,6 +99,11 @@ export interface ComaDiagnosis {
   cornerComaRatio: number | null;
   /** Uniform coma length across the frame, px (collimation or decentring), when it is significant. */
   uniform: { x: number; y: number; err: number } | null;
+  /**
+   * The uniform flare points along a pixel row or column (within 10 deg): charge-transfer trails
+   * and bleeding along the readout do that too, so one frame cannot call it collimation.
+   */
+  uniformAlongPixelAxis: boolean;
   significance: number;
   zoneSignificance: number | null;
   note: string | null;
@@ -166,6 +171,11 @@ export interface TrailingDiagnosis {
   } | null;
   significance: number;
   zoneSignificance: number | null;
+  /**
+   * The uniform stretch the header WCS implies (unequal pixel scales on the sky), when it matters
+   * (distortion 0.02 or more), and whether it explains the stars' uniform elongation (then no trail).
+   */
+  pixelShape: { axisRatio: number; angleDeg: number; source: string; explains: boolean } | null;
   note: string | null;
 }
 
@@ -194,8 +204,21 @@ export interface Diagnosis {
   optics: { fNumber: number | null; pixelSizeUm: number | null; focalLengthMm: number | null; micrometres: boolean; note: string | null };
   sizeMetric: string;
   starsUsed: number;
-  /** How well the stars cover the frame: 3x3 zones and corner zones holding at least 3 clean stars. */
-  coverage: { zonesWithStars: number; cornersWithStars: number; adequate: boolean };
+  /**
+   * How well the stars cover the frame's 3x3 zones that hold sky (zonesWithData, at most 9 and 4
+   * corners): zones with at least 3 clean stars (zonesWithStars), and with at least 3 stars whose
+   * shape was measured (zonesWithShapes); adequate when the shapes cover all but two zones and
+   * one corner. Undersampled: the clean stars' median FWHM is below about 1.5 px.
+   */
+  coverage: {
+    zonesWithData: number; cornersWithData: number;
+    zonesWithStars: number; cornersWithStars: number;
+    zonesWithShapes: number; cornersWithShapes: number;
+    cleanStars: number; medianFwhmPx: number | null;
+    cleanCover: boolean; undersampled: boolean; adequate: boolean;
+  };
+  /** The seeing core the defocus model assumes: Moffat (from the sharper half's PSF fits) or Gaussian. */
+  coreProfile: { model: 'gaussian' | 'moffat'; moffatBeta: number | null; stars: number; moffatStars: number };
   centre: OpticalCentre;
   tilt: TiltDiagnosis;
   spacing: SpacingDiagnosis;
