@@ -3,7 +3,7 @@
  * an independent computation: a circle of points on the sky (intermediate world coordinates,
  * isotropic near the reference point; Greisen & Calabretta 2002) mapped back to pixels through
  * the inverse of CD, and its second moments (optics.md 1.2: A/B and the major-axis angle).
- * HST 47 Tuc (j8bt06nyq_flt.fits, when installed): the issue measured a 1.18:1 stretch at -72 deg
+ * HST 47 Tuc (j8bt06nyq_flt.fits, Debian python-drizzle-testdata): the issue measured a 1.18:1 stretch at -72 deg
  * (issue 13, with astropy). And the diagnosis: a uniform elongation the WCS explains is not
  * trailing; one that differs from it is.
  */
@@ -53,7 +53,9 @@ describe('pixel shape from the WCS', () => {
     expect(pixelShapeFromHeader({})).toBeNull();
   });
 
-  it.skipIf(!existsSync(HST))('HST 47 Tuc: 1.18:1 at -72 deg, as the issue measured with astropy', async () => {
+  it('HST 47 Tuc: 1.18:1 at -72 deg, as the issue measured with astropy', async () => {
+    // a missing package fails the test, as everywhere in this suite (CI installs it)
+    if (!existsSync(HST)) throw new Error(`${HST} is missing: apt-get install -y python-drizzle-testdata`);
     const f = await readFrame(HST);
     const p = pixelShapeFromHeader(f.meta)!;
     expect(p.axisRatio).toBeCloseTo(1.18, 2);
