@@ -26,13 +26,15 @@ export type * from './types.ts';
 export { formatFindings } from './format.ts';
 
 /**
- * Which size the diagnosis rests on, and why: the adaptive second moments (Bernstein & Jarvis 2002)
- * add in quadrature under blur (optics.md 1.1, 4), and measure the spread of the light whatever
- * the profile, where a Gaussian-fit FWHM reads 8-18 % low on flat-topped (camera-processed or
- * clipped) cores (issue 13, measured there against curves of growth); the HFD is reported beside
- * as the profile-free size. The defocus model reads the moments through the core profile found.
+ * Which size the diagnosis rests on, and why: the adaptive second moments (Bernstein & Jarvis
+ * 2002), because the defocus, tilt and curvature models need sizes that add in quadrature under
+ * blur (optics.md 1.1, 4), which moments do and FWHM and HFD do not. Like any second moment they
+ * read large on flat-topped (clipped or camera-processed) cores (measured here on clipped Gaussian
+ * stars: a core clipped at 30 % of its peak reads 32 % wider in moments, 12 % in HFD), so clipped
+ * stars are kept out of the field map and the zone medians outvote the rest (zone-check.ts); the
+ * HFD, which such cores change least, is reported beside them, while a Gaussian-fit FWHM reads low.
  */
-export const SIZE_METRIC = 'adaptive second moments, T = Ixx + Iyy (px^2): they add in quadrature under blur (optics.md 1.1, 4) and measure the spread of the light whatever the profile, where a Gaussian-fit FWHM reads low on flat-topped (camera-processed or clipped) cores; HFD is the profile-free size reported beside them';
+export const SIZE_METRIC = 'adaptive second moments, T = Ixx + Iyy (px^2), because the defocus, tilt and curvature models need sizes that add in quadrature under blur (optics.md 1.1, 4), which FWHM and HFD do not; like any second moment they read large on flat-topped (clipped or camera-processed) cores, so clipped stars are kept out and zone medians outvote odd ones; the HFD, least changed by such cores, is reported beside them';
 
 /**
  * Coverage of the 3 x 3 zones that hold sky (a quarter of their area or more): by clean stars
