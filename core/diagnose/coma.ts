@@ -18,8 +18,8 @@ import type { Spin1Field } from '../field/types.ts';
 export const COMA_SIGMA = 4;
 /** Practical floor: sagittal coma at the corners at least this fraction of the typical Gaussian-equivalent FWHM. */
 export const COMA_MIN_FRACTION = 0.15;
-/** A uniform flare within this many degrees of a pixel row or column may be the sensor's readout. */
-const PIXEL_AXIS_DEG = 10;
+/** A uniform flare within this many degrees (or 3 sigma) of a pixel row or column may be the sensor's readout. */
+const PIXEL_AXIS_DEG = 5;
 /** Decentred when the coma centre is farther than this fraction of the diagonal from the frame centre. */
 const DECENTRED_FRACTION = 0.1;
 
@@ -63,7 +63,10 @@ export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = nu
     && Math.hypot(centre.x - g.cx, centre.y - g.cy) > 3 * Math.hypot(s1.centreErrPx.x, s1.centreErrPx.y));
   // a flare along the pixel rows or columns is what a readout trail (charge transfer, bleeding) gives
   const uAngle = (Math.atan2(s1.uniform.y, s1.uniform.x) * 180) / Math.PI;
-  const alongAxis = uniformSig && Math.abs(((uAngle % 90) + 90 + 45) % 90 - 45) < PIXEL_AXIS_DEG;
+  // consistent with a pixel axis: within PIXEL_AXIS_DEG, or within 3 sigma of its direction (a vector
+  // of significance z has a direction error of 1/z rad)
+  const uDirErrDeg = 180 / Math.PI / Math.max(1e-9, uniformSigma);
+  const alongAxis = uniformSig && Math.abs(((uAngle % 90) + 90 + 45) % 90 - 45) <= Math.max(PIXEL_AXIS_DEG, 3 * uDirErrDeg);
   let note: string | null = null;
   if (fieldSignificant && Math.abs(radialFrac) < 0.9) note = 'the coma vectors are partly rotated against the radius, a sign of misalignment';
   if (!fieldSignificant && uniformSig) {

@@ -35,8 +35,14 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
   } else if (cov.undersampled) {
     out.push({
       code: 'UNDERSAMPLED', severity: 'info',
-      message: `The stars are undersampled: their median FWHM is ${fmt(cov.medianFwhmPx, 2)} px, below about ${UNDERSAMPLED_FWHM} px (common practice; Howell's sampling limit), so their shapes follow the pixel grid more than the optics. Tilt, spacing, coma and curvature are not judged from them, although ${cov.cleanStars} clean stars cover the frame. A longer focal length, smaller pixels or slight defocus would sample the stars.`,
+      message: `The stars are undersampled: their median FWHM is ${fmt(cov.medianFwhmPx, 3)} px, below about ${UNDERSAMPLED_FWHM} px (common practice; Howell's sampling limit), so their shapes follow the pixel grid more than the optics. Tilt, spacing, coma and curvature are not judged from them, although ${cov.cleanStars} clean stars cover the frame. A longer focal length, smaller pixels or slight defocus would sample the stars.`,
       numbers: { medianFwhmPx: cov.medianFwhmPx, limitPx: UNDERSAMPLED_FWHM, cleanStars: cov.cleanStars, starsWithShapes: d.starsUsed },
+    });
+  } else if (cov.marginal && cov.adequate) {
+    out.push({
+      code: 'SMALL_STARS', severity: 'info',
+      message: `The stars are small: their median FWHM is ${fmt(cov.medianFwhmPx, 2)} px, below about 2 px, where a star's elongation and flare follow the pixel grid as much as the optics (optics.md 1.6). Tilt and curvature are judged from the star sizes; corner elongation, astigmatism and coma are not.`,
+      numbers: { medianFwhmPx: cov.medianFwhmPx, limitPx: 2 },
     });
   } else if (!cov.adequate && cov.cleanStars >= 30) {
     out.push({
@@ -182,7 +188,7 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
   if (!u.micrometres && optical) {
     out.push({ code: 'OPTICS_UNKNOWN', severity: 'info', message: `${capital(u.why ?? '')}.`, numbers: { fNumber: u.fNumber, pixelSizeUm: u.pixelSizeUm } });
   }
-  if (!out.some((f) => f.severity !== 'info') && d.starsUsed >= 30 && d.coverage.adequate) {
+  if (!out.some((f) => f.severity !== 'info') && d.starsUsed >= 30 && d.coverage.adequate && !d.coverage.undersampled) {
     // The measured corner-to-centre FWHM ratio (zone medians), not a model extrapolation.
     const zones = map?.zones.cells ?? [];
     const c = zones.find((z) => z.zone === 'center')?.fwhmPx ?? null;
@@ -194,7 +200,9 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
       : '';
     out.push({
       code: 'CLEAN', severity: 'info',
-      message: `No significant optical or tracking fault: from ${d.starsUsed} stars, tilt, corner elongation, coma, curvature and trailing are all within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}.`,
+      message: d.coverage.marginal
+        ? `No significant fault in what small stars can show: from ${d.starsUsed} stars, tilt, curvature and trailing are within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}; corner elongation and coma are not judged.`
+        : `No significant optical or tracking fault: from ${d.starsUsed} stars, tilt, corner elongation, coma, curvature and trailing are all within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}.`,
       numbers: { starsUsed: d.starsUsed, cornerToCentreFwhm: ratio },
     });
   }

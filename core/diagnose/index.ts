@@ -36,6 +36,14 @@ export { formatFindings } from './format.ts';
  */
 export const SIZE_METRIC = 'adaptive second moments, T = Ixx + Iyy (px^2), because the defocus, tilt and curvature models need sizes that add in quadrature under blur (optics.md 1.1, 4), which FWHM and HFD do not; like any second moment they read large on flat-topped (clipped or camera-processed) cores, so clipped stars are kept out and zone medians outvote odd ones; the HFD, least changed by such cores, is reported beside them';
 
+/** Below this median FWHM (px) shapes depend on the pixel phase (LSST StackClub notebook, optics.md 1.6). */
+export const MARGINAL_FWHM = 2;
+
+function medianCleanFwhm(stars: readonly Star[]): number | null {
+  const v = Float64Array.from(stars.filter((s) => s.flags.length === 0 && Number.isFinite(s.fwhmPx)).map((s) => s.fwhmPx)).sort();
+  return v.length >= 10 ? v[v.length >> 1] : null;
+}
+
 /**
  * Coverage of the 3 x 3 zones that hold sky (a quarter of their area or more): by clean stars
  * (flags empty, a size measured), and by stars whose shape (moments) was measured.
@@ -64,6 +72,7 @@ function coverageOf(stars: readonly Star[], map: FieldMap): Diagnosis['coverage'
     cleanStars: clean.length, medianFwhmPx,
     cleanCover: enough(zonesWithStars, cornersWithStars),
     undersampled: medianFwhmPx !== null && sizes.length >= 10 && medianFwhmPx < UNDERSAMPLED_FWHM,
+    marginal: medianFwhmPx !== null && sizes.length >= 10 && medianFwhmPx >= UNDERSAMPLED_FWHM && medianFwhmPx < MARGINAL_FWHM,
     adequate: enough(zonesWithShapes, cornersWithShapes),
   };
 }
@@ -81,7 +90,10 @@ export function diagnose(stars: readonly Star[], ctx: DiagnoseContext): Diagnose
   const u = units(ctx);
   // every fault is tested on the zone medians too, so a few odd stars cannot make it (zone-check.ts)
   const zSpin = spinZoneChecks(fa);
-  const trailing = diagnoseTrailing(fa, zSpin, ctx.pixelShape ?? null);
+  // On marginally sampled stars (FWHM under 2 px) shapes follow the pixel grid (optics.md 1.6): a
+  // trail must at least reach the stars' own FWHM to be told from it.
+  const sampling = medianCleanFwhm(stars);
+  const trailing = diagnoseTrailing(fa, zSpin, ctx.pixelShape ?? null, sampling !== null && sampling < MARGINAL_FWHM ? sampling : 0);
   let coma = diagnoseComa(fa, null, null, zSpin);
   let corrected = correctedColumns(fa, coma.correction, trailing.sizeCorrection);
   let faC = { ...fa, cols: corrected };
@@ -123,6 +135,13 @@ export function diagnose(stars: readonly Star[], ctx: DiagnoseContext): Diagnose
     Object.assign(spacing, off(spacing), { pattern: 'none' as const });
     Object.assign(astigmatism, off(astigmatism), { pattern: 'none' as const });
     Object.assign(curvature, off(curvature));
+    Object.assign(coma.diagnosis, off(coma.diagnosis), { tail: 'none' as const });
+  } else if (coverage.marginal) {
+    // Stars under about 2 px: elongation and flare follow the pixel phase (optics.md 1.6); sizes still count.
+    const marginal = `the stars are small (median FWHM ${coverage.medianFwhmPx?.toFixed(2)} px, below about ${MARGINAL_FWHM} px): their elongation and flare follow the pixel grid as much as the optics`;
+    const off = <T extends { significant: boolean; note: string | null }>(x: T): T => ({ ...x, significant: false, note: [marginal, x.note].filter(Boolean).join('; ') });
+    Object.assign(spacing, off(spacing), { pattern: 'none' as const });
+    Object.assign(astigmatism, off(astigmatism), { pattern: 'none' as const });
     Object.assign(coma.diagnosis, off(coma.diagnosis), { tail: 'none' as const });
   }
   const o = ctx.optics;

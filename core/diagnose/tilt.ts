@@ -7,6 +7,7 @@
 import type { FieldAnalysis } from '../field/map.ts';
 import { sideName } from '../field/geometry.ts';
 import { axialStdDeg, axisDeg, rng, std } from '../field/stats.ts';
+import { robustLinearFit } from '../field/lsq.ts';
 import { fitDefocus, smartStarts, defaultStarts, qAt, P, type DefocusData, type DefocusFit } from './defocus-fit.ts';
 import type { Units } from './context.ts';
 import type { CornerDefocus, TiltDiagnosis } from './types.ts';
@@ -148,6 +149,41 @@ export function qRange(fa: FieldAnalysis, p: ArrayLike<number>): { min: number; 
   return { min, max, minAbs: min < 0 && max > 0 ? 0 : minAbs };
 }
 
+/**
+ * The half-flux diameter must agree: defocus grows every size of a star, so across the stars the
+ * HFD^2 must rise with the model's defocus term q^2 (slope > 0). Sizes that grow in moments but not
+ * in HFD (or the other way) are something else: crowding, clipped cores, the pixel grid. Robust
+ * fit of HFD^2 = a + b q^2 over the stars (Huber weights, intrinsic-scatter floor); the t value of
+ * b, or null when there are too few stars or no HFDs.
+ */
+export function hfdAgreement(fa: FieldAnalysis, model: DefocusModel): number | null {
+  const c = fa.cols;
+  const d = model.data;
+  const p = model.full.params;
+  const rows: number[] = [];
+  for (let i = 0; i < d.n; i++) if (Number.isFinite(c.hfd[i]) && c.hfd[i] > 0) rows.push(i);
+  if (rows.length < 20) return null;
+  const n = rows.length;
+  const A = new Float64Array(2 * n);
+  const y = new Float64Array(n);
+  const s = new Float64Array(n);
+  for (let k = 0; k < n; k++) {
+    const i = rows[k];
+    const q = qAt(p, d.u[i], d.v[i]);
+    A[2 * k] = 1;
+    A[2 * k + 1] = q * q;
+    y[k] = c.hfd[i] * c.hfd[i];
+    // sigma(HFD) ~ HFD / nu at the Fisher level of a size (optics.md 1.6), so sigma(HFD^2) ~ 2 HFD^2 / nu
+    s[k] = (2 * y[k]) / Math.max(1, c.snr[i]);
+  }
+  const f = robustLinearFit(A, y, s, 2, { mode: 'floor' });
+  if (!f) return null;
+  return f.coef[1] / Math.sqrt(Math.max(1e-300, f.cov[3]));
+}
+
+/** The HFD's agreement (t value of its slope against the defocus term) a tilt finding needs. */
+export const TILT_HFD_T = 2;
+
 const MODEL = 'T = T0 + K (delta0 + t.r + c r^2)^2, delta = local focus error, K = (1+eps^2)/(8 N^2 p^2) (optics.md section 4)';
 
 export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | null, zoneSig: number | null = null): TiltDiagnosis {
@@ -157,7 +193,7 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
     acrossFrameUm: { x: null, y: null }, acrossFrameErrUm: { x: null, y: null },
     acrossFrameBlurPx: { x: null, y: null }, acrossFrameBlurErrPx: { x: null, y: null },
     tiltMrad: null, tiltErrMrad: null, signResolved: false, bestFocusInFrame: null,
-    corners: [], worstCornerRatio: null, significance: 0, zoneSignificance: null, deltaChi2: 0, starsUsed: fa.cols.n, model: MODEL,
+    corners: [], worstCornerRatio: null, significance: 0, zoneSignificance: null, hfdAgreement: null, deltaChi2: 0, starsUsed: fa.cols.n, model: MODEL,
   });
   if (!model) return none(`too few clean stars (${fa.cols.n}) to fit a focus plane; at least 20 are needed, better a few hundred`, false);
   const g = fa.geom;
@@ -195,10 +231,13 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
   const blurMax = Math.max(blurX, blurY);
   const relErr = Math.hypot(errX, errY) / Math.max(1e-12, Math.hypot(aq.x, aq.y));
   const sigma = robustSigma(Math.sqrt(dchi2), zoneSig);
-  const significant = sigma >= Math.sqrt(TILT_DCHI2) && blurMax >= TILT_MIN_BLUR_FRACTION * centreFwhm && relErr < 0.5;
+  const hfdT = hfdAgreement(fa, model);
+  const hfdAgrees = hfdT === null || hfdT >= TILT_HFD_T;
+  const significant = sigma >= Math.sqrt(TILT_DCHI2) && blurMax >= TILT_MIN_BLUR_FRACTION * centreFwhm && relErr < 0.5 && hfdAgrees;
   let note: string | null = null;
   if (!u.micrometres) note = u.why;
-  if (!significant && dchi2 >= TILT_DCHI2 && sigma < Math.sqrt(TILT_DCHI2)) note = [note, `the stars show a focus gradient (${Math.sqrt(dchi2).toFixed(1)} sigma) that the zone medians do not confirm (${sigma.toFixed(1)} sigma): a few stars, not the frame`].filter(Boolean).join('; ');
+  if (!hfdAgrees && sigma >= Math.sqrt(TILT_DCHI2)) note = [note, `the second moments show a focus gradient (${sigma.toFixed(1)} sigma) that the half-flux diameters do not follow (t = ${hfdT!.toFixed(1)}): crowding, clipped cores or the pixel grid rather than defocus`].filter(Boolean).join('; ');
+  else if (!significant && dchi2 >= TILT_DCHI2 && sigma < Math.sqrt(TILT_DCHI2)) note = [note, `the stars show a focus gradient (${Math.sqrt(dchi2).toFixed(1)} sigma) that the zone medians do not confirm (${sigma.toFixed(1)} sigma): a few stars, not the frame`].filter(Boolean).join('; ');
   else if (!significant && dchi2 >= TILT_DCHI2) note = [note, 'a focus gradient is detected but too small to matter (below a tenth of the star size across the frame)'].filter(Boolean).join('; ');
   const altBig = alts.filter((a) => Math.hypot(a.x - aq.x, a.y - aq.y) > 0.3 * Math.max(1e-9, Math.hypot(aq.x, aq.y), Math.hypot(a.x, a.y)));
   if (altBig.length) {
@@ -221,6 +260,7 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
     worstCornerRatio,
     significance: sigma,
     zoneSignificance: zoneSig,
+    hfdAgreement: hfdT,
     deltaChi2: dchi2,
     starsUsed: model.data.n,
     model: MODEL,

@@ -36,7 +36,7 @@ const PIXEL_SHAPE_TOLERANCE = 0.25;
  * elongation it explains (direction and size) is the detector's geometry, not trailing; only
  * what is left beyond it is tested as a trail.
  */
-export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null = null, pixelShape: PixelShape | null = null): TrailingResult {
+export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null = null, pixelShape: PixelShape | null = null, minTrailPx = 0): TrailingResult {
   const s2 = fa.map.spin2;
   const Tmed = clippedMean(fa.cols.T).mean;
   const none: TrailingDiagnosis = {
@@ -55,7 +55,12 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
   const rotationLike = aSig >= ROTATION_SIGMA && tangential && spin2LooksRank1(s2) && aMag / Tmed >= ROTATION_MIN_E;
   // Rotation trails leave the across-trail width at the core everywhere; astigmatism near its
   // tangential line focus is nearly rank-1 too, but its minor axis changes across the field.
-  const corrRot = rotationLike ? rotationSizeCorrection(fa, cRot) : null;
+  // Trails shorter than minTrailPx (the FWHM of marginally sampled stars) are not told apart from the pixel grid.
+  let short: string | null = null;
+  const farOf = (c: { x: number; y: number }) => Math.max(...[[-0.5, -0.5], [g.width - 0.5, -0.5], [-0.5, g.height - 0.5], [g.width - 0.5, g.height - 0.5]].map(([x, y]) => Math.hypot(x - c.x, y - c.y)));
+  const rotLen = rotationLike ? trailLengthFromMoments(aMag * (farOf(cRot) / g.scale) ** 2, Tmed + aMag * (farOf(cRot) / g.scale) ** 2) : 0;
+  if (rotationLike && rotLen < minTrailPx) short = `a field-rotation pattern (${aSig.toFixed(1)} sigma) whose trails reach only ${rotLen.toFixed(1)} px, less than the stars' own FWHM (${minTrailPx.toFixed(1)} px): on stars this small the pixel grid can do as much`;
+  const corrRot = rotationLike && !short ? rotationSizeCorrection(fa, cRot) : null;
   if (rotationLike && corrRot) {
     const c = cRot;
     // Adaptive moments of a trail exceed L^2/12 once L passes the core (coma-calibration.ts),
@@ -93,9 +98,13 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
     : null;
   // significance of what is left after the pixels' shape (the errors are those of the whole)
   const rSig = c0Mag > 0 ? (cSig * cMag) / c0Mag : 0;
-  if (!shape?.explains && rSig >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E) {
+  const uniformLen = trailLengthFromMoments(cMag, Tmed);
+  if (!shape?.explains && rSig >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E && uniformLen < minTrailPx) {
+    short = `a uniform elongation (${rSig.toFixed(1)} sigma) of only ${uniformLen.toFixed(1)} px, less than the stars' own FWHM (${minTrailPx.toFixed(1)} px): on stars this small the pixel grid can do as much`;
+  }
+  if (!short && !shape?.explains && rSig >= UNIFORM_SIGMA && cMag / Tmed >= UNIFORM_MIN_E) {
     // Length through the adaptive-moment trail model (L^2/12 only for unweighted moments).
-    const L = trailLengthFromMoments(cMag, Tmed);
+    const L = uniformLen;
     // Errors of |C| and of its phase from the component errors.
     const magErr = Math.hypot(C.re * s2.cErr.re, C.im * s2.cErr.im) / cMag;
     const perpErr = Math.hypot(C.im * s2.cErr.re, C.re * s2.cErr.im) / cMag;
@@ -115,11 +124,11 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
       explainsSpin2: false,
     };
   }
-  const note = shape?.explains
+  const note = short ?? (shape?.explains
     ? `every star is stretched about ${shape.axisRatio.toFixed(2)}:1 along ${shape.angleDeg.toFixed(0)} deg, as ${shape.source} says the pixels are on the sky (unequal pixel scales): the detector's geometry, not trailing`
     : s2.cSignificance >= UNIFORM_SIGMA && c0Mag / Tmed >= UNIFORM_MIN_E && cSig < UNIFORM_SIGMA
       ? `the stars show a uniform elongation (${s2.cSignificance.toFixed(1)} sigma) that the zone medians do not confirm (${cSig.toFixed(1)} sigma): a few stars, not the frame`
-      : null;
+      : null);
   return { diagnosis: { ...none, significance: rSig, zoneSignificance: zones?.uniformElongation ?? null, pixelShape: shape, note }, sizeCorrection: null, explainsSpin2: false };
 }
 

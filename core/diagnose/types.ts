@@ -53,6 +53,8 @@ export interface TiltDiagnosis {
   significance: number;
   /** The same test on zone medians, with their scatter (zone-check.ts); null when the zones are too few. */
   zoneSignificance: number | null;
+  /** t value of the HFD^2 slope against the model's defocus term (> 2 needed: every size grows with defocus); null: not tested. */
+  hfdAgreement: number | null;
   deltaChi2: number;
   starsUsed: number;
   model: string;
@@ -100,7 +102,7 @@ export interface ComaDiagnosis {
   /** Uniform coma length across the frame, px (collimation or decentring), when it is significant. */
   uniform: { x: number; y: number; err: number } | null;
   /**
-   * The uniform flare points along a pixel row or column (within 10 deg): charge-transfer trails
+   * The uniform flare points along a pixel row or column (within 5 deg or 3 sigma): charge-transfer trails
    * and bleeding along the readout do that too, so one frame cannot call it collimation.
    */
   uniformAlongPixelAxis: boolean;
@@ -208,7 +210,8 @@ export interface Diagnosis {
    * How well the stars cover the frame's 3x3 zones that hold sky (zonesWithData, at most 9 and 4
    * corners): zones with at least 3 clean stars (zonesWithStars), and with at least 3 stars whose
    * shape was measured (zonesWithShapes); adequate when the shapes cover all but two zones and
-   * one corner. Undersampled: the clean stars' median FWHM is below about 1.5 px.
+   * one corner. Undersampled: the clean stars' median FWHM is below about 1.5 px (Howell); marginal:
+   * below about 2 px, where shapes depend on the pixel phase (optics.md 1.6).
    */
   coverage: {
     zonesWithData: number; cornersWithData: number;
@@ -216,6 +219,8 @@ export interface Diagnosis {
     zonesWithShapes: number; cornersWithShapes: number;
     cleanStars: number; medianFwhmPx: number | null;
     cleanCover: boolean; undersampled: boolean; adequate: boolean;
+    /** Median FWHM from 1.5 to 2 px: sizes are judged, elongation and flare (spacing, astigmatism, coma) are not. */
+    marginal: boolean;
   };
   /** The seeing core the defocus model assumes: Moffat (from the sharper half's PSF fits) or Gaussian. */
   coreProfile: { model: 'gaussian' | 'moffat'; moffatBeta: number | null; stars: number; moffatStars: number };
