@@ -12,7 +12,7 @@ import { startPool } from './kernels.ts';
 import type { Star, StarFlag } from './stars/types.ts';
 import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
-import { findDataRegion, inDataRegion, scaleRegion, type DataRegion } from './image/data-region.ts';
+import { confirmRegion, findDataRegion, inDataRegion, scaleRegion, type DataRegion } from './image/data-region.ts';
 import { pixelShapeFromHeader, type PixelShape } from './diagnose/pixel-shape.ts';
 
 export interface AnalyzeOptions {
@@ -94,7 +94,7 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('plane');
     progress('background', 0);
     const sky = await estimateSkyInBands(pool, data, plane.width, plane.height);
-    const region = findDataRegion(plane.data, plane.width, plane.height);
+    let region = findDataRegion(plane.data, plane.width, plane.height);
     lap('sky');
     const { residual, missing } = await subtractSkyInBands(pool, data, sky);
     lap('subtract');
@@ -122,6 +122,8 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     }
     // A detection outside the sky (a fisheye's black corners) is no star; near the edge of the
     // image circle the stamp would take in the black, so a margin of the stamp radius is kept.
+    // Stars well inside a part found without sky mean it is dark sky after all.
+    region = confirmRegion(region, det.candidates, plane.width, plane.height, det.stampRadius);
     let candidates = region.kind === 'full' ? det.candidates : det.candidates.filter((c) => inDataRegion(region, c.x, c.y, det.stampRadius));
     const outsideData = det.candidates.length - candidates.length;
     if (candidates.length === 0) {

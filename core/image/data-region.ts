@@ -153,6 +153,26 @@ export function inDataRegion(region: DataRegion, x: number, y: number, marginPx 
   return true;
 }
 
+/**
+ * A check with the detections: a black region holds no stars. When the part found without sky
+ * holds detections well beyond its edge at a quarter or more of the density of the sky part
+ * (10 or more), it is dark sky after all (a dark nebula, a flat faint half of the frame), and
+ * the whole frame counts as sky.
+ */
+export function confirmRegion(region: DataRegion, points: readonly { x: number; y: number }[], width: number, height: number, marginPx: number): DataRegion {
+  if (region.kind === 'full' || region.skyFraction >= 1 || points.length === 0) return region;
+  let out = 0;
+  for (const p of points) if (!inDataRegion(region, p.x, p.y, -marginPx)) out++;
+  const inside = points.length - out;
+  const dOut = out / Math.max(1e-9, (1 - region.skyFraction) * width * height);
+  const dIn = inside / Math.max(1e-9, region.skyFraction * width * height);
+  if (out < 10 || dOut < 0.25 * dIn) return region;
+  return {
+    ...region, kind: 'full', circle: null, mask: null, skyFraction: 1, blackLevel: null,
+    note: `sky across the whole frame (a darker part holds ${out} detections: sky, not black)`,
+  };
+}
+
 /** Fraction of a rectangle (px bounds) that lies in the data region (sampled 16 x 16). */
 export function regionFractionOf(region: DataRegion, x0: number, y0: number, x1: number, y1: number): number {
   if (region.kind === 'full') return 1;

@@ -92,3 +92,17 @@ describe('data region', () => {
     expect(circleFraction(1000, 800, { x: 499.5, y: 399.5, r: 300 })).toBeCloseTo((Math.PI * 300 * 300) / (1000 * 800), 2);
   });
 });
+
+describe('data region against the detections', () => {
+  it('a dark part holding stars as densely as the rest is dark sky, not black; a black one keeps its stars out', async () => {
+    const { confirmRegion } = await import('../../core/image/data-region.ts');
+    const w = 600, h = 400;
+    const d = frame(w, h, (x) => (x < 150 ? null : 700));
+    const r = findDataRegion(d, w, h);
+    const rnd = mulberry32(3);
+    const stars = Array.from({ length: 200 }, () => ({ x: rnd() * w, y: rnd() * h }));
+    expect(confirmRegion(r, stars, w, h, 8).kind).toBe('full');
+    const skyOnly = stars.filter((s) => s.x > 170);
+    expect(confirmRegion(r, skyOnly, w, h, 8).kind).toBe('mask');
+  });
+});
