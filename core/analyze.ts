@@ -12,6 +12,8 @@ import { startPool } from './kernels.ts';
 import type { Star, StarFlag } from './stars/types.ts';
 import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
+import { confirmRegion, findDataRegion, inDataRegion, scaleRegion, type DataRegion } from './image/data-region.ts';
+import { pixelShapeFromHeader, type PixelShape } from './diagnose/pixel-shape.ts';
 
 export interface AnalyzeOptions {
   user?: UserOptics;
@@ -38,6 +40,10 @@ export interface Analysis {
     readonly displayTopRow: Frame['displayTopRow'];
     readonly cfa: CfaPattern | null;
     readonly saturationLevel: number | null;
+    /** Where the frame holds sky (full-resolution px): the whole frame, an image circle or a mask. */
+    readonly dataRegion: DataRegion;
+    /** The stretch a round star takes from the pixels' shape on the sky, per the header WCS; null without one. */
+    readonly pixelShape: PixelShape | null;
   };
   readonly optics: Optics;
   /** The measured plane: full resolution, or 2x2 superpixels for mosaics (coordinates in stars[] are full resolution). */
@@ -48,6 +54,8 @@ export interface Analysis {
     readonly psfSigmaPx: number;
     readonly candidates: number;
     readonly measured: number;
+    /** Detections outside the data region, dropped before measuring. */
+    readonly outsideData: number;
     readonly subset: null | { readonly of: number; readonly rule: string };
     readonly flagged: Readonly<Partial<Record<StarFlag, number>>>;
   };
@@ -86,6 +94,7 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('plane');
     progress('background', 0);
     const sky = await estimateSkyInBands(pool, data, plane.width, plane.height);
+    let region = findDataRegion(plane.data, plane.width, plane.height);
     lap('sky');
     const { residual, missing } = await subtractSkyInBands(pool, data, sky);
     lap('subtract');
@@ -111,7 +120,15 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     if (det.candidates.length === 0) {
       throw new SkyloupeError('no-stars', `no stars found above ${det.threshold} sigma (sky ${fmt(sky.globalLevel)} +/- ${fmt(sky.globalSigma)} ADU): cloudy, empty or heavily defocused frame?`);
     }
-    let candidates = det.candidates;
+    // A detection outside the sky (a fisheye's black corners) is no star; near the edge of the
+    // image circle the stamp would take in the black, so a margin of the stamp radius is kept.
+    // Stars well inside a part found without sky mean it is dark sky after all.
+    region = confirmRegion(region, det.candidates, plane.width, plane.height, det.stampRadius);
+    let candidates = region.kind === 'full' ? det.candidates : det.candidates.filter((c) => inDataRegion(region, c.x, c.y, det.stampRadius));
+    const outsideData = det.candidates.length - candidates.length;
+    if (candidates.length === 0) {
+      throw new SkyloupeError('no-stars', `no stars found inside the sky region (${region.note})`);
+    }
     let subset: Analysis['detection']['subset'] = null;
     const maxStars = opts.maxStars ?? 30000;
     if (candidates.length > maxStars) {
@@ -128,7 +145,7 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
       onProgress: (f) => progress('measure', f),
     });
     lap('measure');
-    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
+    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData });
   } finally {
     if (ownPool) void pool.close();
   }
@@ -141,6 +158,7 @@ function finish(
   det: { threshold: number; psfSigmaPx: number; candidates: readonly unknown[] },
   subset: Analysis['detection']['subset'], measured: Star[],
   timings: Record<string, number>, lap: (n: string) => void, progress: (stage: string, f: number) => void,
+  where: { region: DataRegion; outsideData: number },
 ): Analysis {
   const stars = finishStars(measured, plane.scale, plane.offset);
   const flagged: Partial<Record<StarFlag, number>> = {};
@@ -148,11 +166,14 @@ function finish(
   lap('finish');
   progress('done', 1);
   return {
-    frame: { width: frame.width, height: frame.height, format: frame.format, displayTopRow: frame.displayTopRow, cfa, saturationLevel: frame.saturationLevel },
+    frame: {
+      width: frame.width, height: frame.height, format: frame.format, displayTopRow: frame.displayTopRow, cfa, saturationLevel: frame.saturationLevel,
+      dataRegion: scaleRegion(where.region, plane.scale, plane.offset), pixelShape: pixelShapeFromHeader(frame.meta),
+    },
     optics,
     plane: { width: plane.width, height: plane.height, scale: plane.scale, offset: plane.offset },
     sky: { level: sky.globalLevel, sigma: sky.globalSigma, boxPx: sky.box * plane.scale },
-    detection: { threshold: det.threshold, psfSigmaPx: det.psfSigmaPx * plane.scale, candidates: det.candidates.length, measured: stars.length, subset, flagged },
+    detection: { threshold: det.threshold, psfSigmaPx: det.psfSigmaPx * plane.scale, candidates: det.candidates.length, measured: stars.length, outsideData: where.outsideData, subset, flagged },
     stars,
     timings,
   };

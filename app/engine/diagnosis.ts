@@ -2,8 +2,9 @@
 import type { Analysis } from '../../core/analyze.ts';
 import type { Report } from '../../core/report/types.ts';
 import { diagnose } from '../../core/diagnose/index.ts';
+import { contextOf } from '../../core/diagnose/context.ts';
 
 export function diagnoseExtras(a: Analysis): Pick<Report, 'diagnosis' | 'findings' | 'field'> {
-  const d = diagnose(a.stars, { width: a.frame.width, height: a.frame.height, optics: a.optics, displayTopRow: a.frame.displayTopRow });
+  const d = diagnose(a.stars, contextOf(a));
   return { field: d.field, diagnosis: d.diagnosis, findings: d.findings };
 }

@@ -25,6 +25,8 @@ export function formatSummary(r: Report): string {
   const flagged = Object.entries(d.flagged).map(([k, v]) => `${v} ${k}`).join(', ');
   lines.push(`stars: ${d.candidates} detected, ${d.measured} measured, ${d.usedForField} used for the field${flagged ? ` (set aside: ${flagged})` : ''}`);
   if (d.subset) lines.push(`note: measured a subset, ${d.subset.rule} of ${d.subset.of}`);
+  const region = r.frame.dataRegion;
+  if (region && region.kind !== 'full') lines.push(`sky: ${region.note}${d.outsideData ? `; ${d.outsideData} detections outside it dropped` : ''}`);
   const s = r.summary;
   const arc = plate && s.medianFwhmArcsec !== null ? ` = ${f(s.medianFwhmArcsec)}"` : '';
   lines.push(`median FWHM ${f(s.medianFwhmPx)} px${arc}, HFD ${f(s.medianHfdPx)} px, ellipticity ${f(s.medianEllipticity, 3)}`);

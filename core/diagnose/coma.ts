@@ -12,11 +12,14 @@ import { clippedMean } from '../field/stats.ts';
 import { comaLengthAt, fitSpin1 } from '../field/spin.ts';
 import { adaptiveComaMoments, comaDefocusMoments, coreForComa, coreForComaDefocus } from '../field/coma-calibration.ts';
 import type { ComaDiagnosis } from './types.ts';
+import { robustSigma, type SpinZoneChecks } from './zone-check.ts';
 import type { Spin1Field } from '../field/types.ts';
 
-const COMA_SIGMA = 4;
+export const COMA_SIGMA = 4;
 /** Practical floor: sagittal coma at the corners at least this fraction of the typical Gaussian-equivalent FWHM. */
 export const COMA_MIN_FRACTION = 0.15;
+/** A uniform flare within this many degrees (or 3 sigma) of a pixel row or column may be the sensor's readout. */
+const PIXEL_AXIS_DEG = 5;
 /** Decentred when the coma centre is farther than this fraction of the diagonal from the frame centre. */
 const DECENTRED_FRACTION = 0.1;
 
@@ -32,12 +35,12 @@ export interface ComaResult {
  * diskPx: per-star defocus-disk diameters from the defocus model (second pass), so the coma is
  * read with its defocus cross term and its moment share is computed with the star's own blur.
  */
-export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = null, spin1: Spin1Field | null = null): ComaResult {
+export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = null, spin1: Spin1Field | null = null, zones: SpinZoneChecks | null = null): ComaResult {
   const s1 = spin1 ?? (diskPx ? (fitSpin1(fa.cols, fa.geom, 54321, diskPx) ?? fa.map.spin1) : fa.map.spin1);
   const g = fa.geom;
   const empty: ComaDiagnosis = {
     significant: false, tail: 'none', centerPx: null, centerErrPx: null, centreOffsetFraction: null, decentred: false,
-    gradientPx: null, gradientErrPx: null, cornerComaPx: null, cornerComaRatio: null, uniform: null, significance: 0, note: null,
+    gradientPx: null, gradientErrPx: null, cornerComaPx: null, cornerComaRatio: null, uniform: null, uniformAlongPixelAxis: false, significance: 0, zoneSignificance: null, note: null,
   };
   if (!s1) return { diagnosis: { ...empty, note: 'too few clean stars to map coma' }, correction: null, spin1: null };
   const alpha = s1.alpha;
@@ -50,14 +53,27 @@ export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = nu
   const cornerComa = aMag;
   const fwhm = 2.354820045 * Math.sqrt(clippedMean(fa.cols.T).mean / 2);
   const minS = COMA_MIN_FRACTION * fwhm;
-  const fieldSignificant = s1.alphaSignificance >= COMA_SIGMA && cornerComa >= minS && Math.abs(radialFrac) > 0.5;
+  // significance from the stars, or from the zone medians where they say less (zone-check.ts)
+  const fieldSig = robustSigma(s1.alphaSignificance, zones?.comaField ?? null);
+  const uniformSigma = robustSigma(s1.uniformSignificance, zones?.comaUniform ?? null);
+  const fieldSignificant = fieldSig >= COMA_SIGMA && cornerComa >= minS && Math.abs(radialFrac) > 0.5;
   const uMag = Math.hypot(s1.uniform.x, s1.uniform.y);
-  const uniformSig = !fieldSignificant && s1.uniformSignificance >= COMA_SIGMA + 1 && uMag >= minS;
+  const uniformSig = !fieldSignificant && uniformSigma >= COMA_SIGMA + 1 && uMag >= minS;
   const decentred = !!(fieldSignificant && centre && s1.centreErrPx && offset !== null && offset > DECENTRED_FRACTION
     && Math.hypot(centre.x - g.cx, centre.y - g.cy) > 3 * Math.hypot(s1.centreErrPx.x, s1.centreErrPx.y));
+  // a flare along the pixel rows or columns is what a readout trail (charge transfer, bleeding) gives
+  const uAngle = (Math.atan2(s1.uniform.y, s1.uniform.x) * 180) / Math.PI;
+  // consistent with a pixel axis: within PIXEL_AXIS_DEG, or within 3 sigma of its direction (a vector
+  // of significance z has a direction error of 1/z rad)
+  const uDirErrDeg = 180 / Math.PI / Math.max(1e-9, uniformSigma);
+  const alongAxis = uniformSig && Math.abs(((uAngle % 90) + 90 + 45) % 90 - 45) <= Math.max(PIXEL_AXIS_DEG, 3 * uDirErrDeg);
   let note: string | null = null;
   if (fieldSignificant && Math.abs(radialFrac) < 0.9) note = 'the coma vectors are partly rotated against the radius, a sign of misalignment';
-  if (!fieldSignificant && uniformSig) note = 'the same coma everywhere, centre included: collimation or a decentred element rather than field coma';
+  if (!fieldSignificant && uniformSig) {
+    note = alongAxis
+      ? 'the same flare everywhere, along a pixel row or column: a readout trail of the sensor (charge transfer, bleeding) or collimation; rotating the camera tells them apart'
+      : 'the same coma everywhere, centre included: collimation or a decentred element rather than field coma';
+  }
   const diagnosis: ComaDiagnosis = {
     significant: fieldSignificant || uniformSig,
     tail: fieldSignificant ? (alpha.re > 0 ? 'outward' : 'inward') : 'none',
@@ -69,8 +85,12 @@ export function diagnoseComa(fa: FieldAnalysis, diskPx: Float64Array | null = nu
     gradientErrPx: s1.alphaErr.re,
     cornerComaPx: cornerComa,
     cornerComaRatio: fwhm > 0 ? cornerComa / fwhm : null,
-    uniform: uniformSig ? { x: s1.uniform.x, y: s1.uniform.y, err: s1.uniformErr } : null,
-    significance: Math.max(s1.alphaSignificance, uniformSig ? s1.uniformSignificance : 0),
+    // the uniform length's error as its significance says (S grows as c^(1/3) for small c, so the
+    // noise of c pushed through the inversion from zero overstates it)
+    uniform: uniformSig ? { x: s1.uniform.x, y: s1.uniform.y, err: Math.min(s1.uniformErr, uMag / Math.max(1e-9, uniformSigma)) } : null,
+    significance: Math.max(fieldSig, uniformSig ? uniformSigma : 0),
+    zoneSignificance: uniformSig ? (zones?.comaUniform ?? null) : (zones?.comaField ?? null),
+    uniformAlongPixelAxis: alongAxis,
     note,
   };
   if (!diagnosis.significant) return { diagnosis, correction: null, spin1: s1 };

@@ -1,5 +1,8 @@
 /** What the diagnosis needs to know about the optics, and the unit conversions that follow from it. */
 import type { Optics } from '../frame/types.ts';
+import type { Analysis } from '../analyze.ts';
+import type { DataRegion } from '../image/data-region.ts';
+import type { PixelShape } from './pixel-shape.ts';
 
 export interface DiagnoseContext {
   readonly width: number;
@@ -11,6 +14,18 @@ export interface DiagnoseContext {
   readonly obstruction?: number;
   /** Effective wavelength for diffraction, nm (default 550). */
   readonly wavelengthNm?: number;
+  /** Where the frame holds sky (full-resolution px); absent or null: the whole frame. */
+  readonly dataRegion?: DataRegion | null;
+  /** The uniform stretch the header WCS implies for round stars (unequal pixel scales); null: none known. */
+  readonly pixelShape?: PixelShape | null;
+}
+
+/** The diagnosis context of an analysed frame: one place, so the CLI, the reports and the desktop program agree. */
+export function contextOf(a: Analysis): DiagnoseContext {
+  return {
+    width: a.frame.width, height: a.frame.height, optics: a.optics, displayTopRow: a.frame.displayTopRow,
+    dataRegion: a.frame.dataRegion, pixelShape: a.frame.pixelShape,
+  };
 }
 
 export interface Units {

@@ -9,14 +9,15 @@ import type { DefocusModel } from './tilt.ts';
 import { P } from './defocus-fit.ts';
 import { std } from '../field/stats.ts';
 import type { CurvatureDiagnosis } from './types.ts';
+import { robustSigma } from './zone-check.ts';
 
-const CURV_DCHI2 = 16;
+export const CURV_DCHI2 = 16;
 const MIN_ROUND_RATIO = 1.05;
 
-export function diagnoseCurvature(model: DefocusModel | null, sym: Symmetric | null, u: Units, halfDiagonalPx: number): CurvatureDiagnosis {
+export function diagnoseCurvature(model: DefocusModel | null, sym: Symmetric | null, u: Units, halfDiagonalPx: number, zoneSig: number | null = null): CurvatureDiagnosis {
   const none: CurvatureDiagnosis = {
     significant: false, cornerDefocusUm: null, cornerDefocusErrUm: null, cornerBlurPx: null, cornerBlurErrPx: null,
-    roundGrowthRatio: null, roundGrowthRatioErr: null, radiusMm: null, signResolved: false, significance: 0, note: null,
+    roundGrowthRatio: null, roundGrowthRatioErr: null, radiusMm: null, signResolved: false, significance: 0, zoneSignificance: null, note: null,
   };
   if (!model || !sym) return { ...none, note: 'too few clean stars' };
   const a3 = Math.abs(model.full.params[P.a3]);
@@ -25,7 +26,8 @@ export function diagnoseCurvature(model: DefocusModel | null, sym: Symmetric | n
   const iso = Math.max(0, sym.excess - Math.abs(sym.D));
   const ratio = sym.t0 > 0 ? Math.sqrt((sym.t0 + iso) / sym.t0) : NaN;
   const ratioErr = Number.isFinite(ratio) ? Math.hypot(sym.excessErr, sym.DErr) / sym.t0 / (2 * ratio) : NaN;
-  const significant = dchi2 >= CURV_DCHI2 && ratio >= MIN_ROUND_RATIO && iso > 3 * Math.hypot(sym.excessErr, sym.DErr);
+  const sigma = robustSigma(Math.sqrt(dchi2), zoneSig);
+  const significant = sigma >= Math.sqrt(CURV_DCHI2) && ratio >= MIN_ROUND_RATIO && iso > 3 * Math.hypot(sym.excessErr, sym.DErr);
   const sK = u.sqrtK;
   const dUm = sK ? a3 / sK : null;
   const hMm = u.pixelSizeUm ? (halfDiagonalPx * u.pixelSizeUm) / 1000 : null;
@@ -39,7 +41,8 @@ export function diagnoseCurvature(model: DefocusModel | null, sym: Symmetric | n
     roundGrowthRatioErr: Number.isFinite(ratioErr) ? ratioErr : null,
     radiusMm: significant && dUm && hMm ? (hMm * hMm) / (2 * (dUm / 1000)) : null,
     signResolved: false,
-    significance: Math.sqrt(dchi2),
+    significance: sigma,
+    zoneSignificance: zoneSig,
     note: significant ? 'round stars growing symmetrically toward the corners; astigmatism balanced at its medial focus looks the same in one frame' : (u.micrometres ? null : u.why),
   };
 }

@@ -22,15 +22,17 @@ export interface DefocusData {
   readonly frame: Uint8Array | null;
   /** Central obstruction of the pupil (shape of the defocus disk); default 0. */
   readonly eps?: number;
+  /** Moffat power index of the seeing core (null or absent: a Gaussian core); sets the adaptive gain H. */
+  readonly beta?: number | null;
 }
 
 /**
  * Size of a star with core T0 and unweighted defocus term q^2, as the adaptive moments see it:
  * T0 + q^2 H(2 q^2 / T0) (field/coma-calibration.ts; H = 1 for unweighted moments).
  */
-export function modelT(T0: number, q: number, eps = 0): number {
+export function modelT(T0: number, q: number, eps = 0, beta: number | null = null): number {
   const q2 = q * q;
-  return T0 + q2 * defocusGain((2 * q2) / Math.max(T0, 1e-9), eps).H;
+  return T0 + q2 * defocusGain((2 * q2) / Math.max(T0, 1e-9), eps, beta).H;
 }
 
 /** Full parameter vector: [T0, T0b, a0, a1, a2, a3, s]. T0b and s are used only for pairs. */
@@ -74,7 +76,8 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
   const na = active.length;
   const fr = d.frame;
   const eps = d.eps ?? 0;
-  const table = defocusTable(eps);
+  const beta = d.beta ?? null;
+  const table = defocusTable(eps, beta);
   const dH = new Float64Array(1);
   const jac = new Float64Array(na);
   return {
@@ -161,7 +164,7 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
       const q = qOf(full, u, v) + (f ? full[P.s] : 0);
       const t0 = Math.max(f ? full[P.T0b] : full[P.T0], 1e-9);
       const y = (2 * q * q) / t0;
-      const gn = defocusGain(y, eps);
+      const gn = defocusGain(y, eps, beta);
       if (jac) {
         jac.fill(0);
         const g = 2 * q * (gn.H + y * gn.dH);
@@ -291,6 +294,12 @@ export function smartStarts(d: DefocusData, spec: DefocusSpec): Float64Array[] {
 
 const CHI2_1_MEDIAN = 0.454936;
 
+/** 1.4826 x the median absolute deviation (a Gaussian sigma). */
+function madSpread(v: Float64Array): number {
+  const m = median(v);
+  return 1.4826 * median(Float64Array.from(v, (x) => Math.abs(x - m)));
+}
+
 /**
  * Among solutions that fit equally well (within delta chi^2 4, about 2 sigma), take the one with
  * the largest core T0, i.e. the least defocus: a near-linear size field can also be fitted by
@@ -321,7 +330,9 @@ export function fitDefocus(d: DefocusData, spec: DefocusSpec, starts: Float64Arr
   const n = d.n;
   if (n < 8) return null;
   let robust = fixedWeights ? fixedWeights.robust : new Float64Array(n).fill(1);
-  let scatter = fixedWeights ? fixedWeights.scatter : 0;
+  // The first round starts with a floor at the spread of the sizes (MAD), so that a few stars with
+  // tiny errors (bright, clipped, odd) cannot steer it; later rounds set the floor from the residuals.
+  let scatter = fixedWeights ? fixedWeights.scatter : madSpread(d.T);
   const w = new Float64Array(n);
   const setW = () => { for (let i = 0; i < n; i++) w[i] = robust[i] / (d.sig[i] * d.sig[i] + scatter * scatter); };
   let best: ReturnType<typeof solveFrom> | null = null;
@@ -340,7 +351,7 @@ export function fitDefocus(d: DefocusData, spec: DefocusSpec, starts: Float64Arr
     for (let i = 0; i < n; i++) {
       const fr = d.frame ? d.frame[i] : 0;
       const q = qOf(best.params, d.u[i], d.v[i]) + (fr ? best.params[P.s] : 0);
-      res[i] = d.T[i] - modelT(fr ? best.params[P.T0b] : best.params[P.T0], q, d.eps ?? 0);
+      res[i] = d.T[i] - modelT(fr ? best.params[P.T0b] : best.params[P.T0], q, d.eps ?? 0, d.beta ?? null);
     }
     const medZ = (s: number) => medianOf(Float64Array.from(res, (r, i) => (r * r) / (d.sig[i] * d.sig[i] + s * s)));
     if (medZ(0) <= CHI2_1_MEDIAN) scatter = 0;
@@ -360,7 +371,11 @@ export function fitDefocus(d: DefocusData, spec: DefocusSpec, starts: Float64Arr
   }
   setW();
   const fin = solveFrom(d, w, spec, best!.params);
-  const use = fin.chi2 <= best!.chi2 + 1e-9 ? fin : best!;
+  // best.chi2 was summed under the previous round's weights: compare, and report, under the final
+  // ones (a chi^2 under other weights made a faultless field with a few outlying bright stars
+  // read as a 20-sigma tilt: the full fit's chi^2 came from a round with a wider scatter floor).
+  const bestChi2 = chi2At(d, best!.params, { robust, scatter } as DefocusFit);
+  const use = fin.chi2 <= bestChi2 + 1e-9 ? fin : { ...best!, chi2: bestChi2 };
   let neff = 0;
   for (let i = 0; i < n; i++) if (robust[i] > 0) neff++;
   const dof = Math.max(1, neff - use.active.length);
@@ -391,7 +406,7 @@ export function chi2At(d: DefocusData, params: ArrayLike<number>, weightsFrom: D
     if (!(w > 0)) continue;
     const f = d.frame ? d.frame[i] : 0;
     const q = qOf(params, d.u[i], d.v[i]) + (f ? params[P.s] : 0);
-    const r = d.T[i] - modelT(f ? params[P.T0b] : params[P.T0], q, d.eps ?? 0);
+    const r = d.T[i] - modelT(f ? params[P.T0b] : params[P.T0], q, d.eps ?? 0, d.beta ?? null);
     chi2 += w * r * r;
   }
   return chi2;

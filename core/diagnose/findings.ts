@@ -5,6 +5,9 @@ import type { Diagnosis, Finding } from './types.ts';
 import type { FieldMap } from '../field/types.ts';
 import { axisWords, fmt, fmtErr } from './words.ts';
 
+/** Below this median FWHM (px) stars are too undersampled for shapes (Howell's sampling parameter, optics.md 1.6 and 7). */
+export const UNDERSAMPLED_FWHM = 1.5;
+
 /** Corner-to-centre size ratio above which corners count as clearly soft ("good corners" <= 1.2, optics.md 7, common practice). */
 const MAJOR_RATIO = 1.2;
 /** Corner elongation (distortion e) above which stars look visibly oval (A/B ~ 1.1, optics.md 7, common practice). */
@@ -21,16 +24,44 @@ const sev = (major: boolean): 'major' | 'minor' => (major ? 'major' : 'minor');
 
 export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMap): Finding[] {
   const out: Finding[] = [];
-  if (!d.coverage.adequate && d.starsUsed >= 30) {
+  const cov = d.coverage;
+  if (!cov.cleanCover && cov.cleanStars >= 30) {
+    const sky = cov.zonesWithData < 9 ? ' that hold sky' : ' of the frame';
     out.push({
       code: 'POOR_COVERAGE', severity: 'info',
-      message: `The stars cover only ${d.coverage.zonesWithStars} of the 9 zones of the frame (${d.coverage.cornersWithStars} of 4 corners): tilt, spacing, coma and curvature cannot be judged across the field. Use a frame with stars in every part (a richer field or a longer exposure).`,
-      numbers: { zonesWithStars: d.coverage.zonesWithStars, cornersWithStars: d.coverage.cornersWithStars },
+      message: `The stars cover only ${cov.zonesWithStars} of the ${cov.zonesWithData} zones${sky} (${cov.cornersWithStars} of ${cov.cornersWithData} corners): tilt, spacing, coma and curvature cannot be judged across the field. Use a frame with stars in every part (a richer field or a longer exposure).`,
+      numbers: { zonesWithStars: cov.zonesWithStars, zonesWithData: cov.zonesWithData, cornersWithStars: cov.cornersWithStars, cornersWithData: cov.cornersWithData },
+    });
+  } else if (cov.undersampled) {
+    out.push({
+      code: 'UNDERSAMPLED', severity: 'info',
+      message: `The stars are undersampled: their median FWHM is ${fmt(cov.medianFwhmPx, 3)} px, below about ${UNDERSAMPLED_FWHM} px (common practice; Howell's sampling limit), so their shapes follow the pixel grid more than the optics. Tilt, spacing, coma and curvature are not judged from them, although ${cov.cleanStars} clean stars cover the frame. A longer focal length, smaller pixels or slight defocus would sample the stars.`,
+      numbers: { medianFwhmPx: cov.medianFwhmPx, limitPx: UNDERSAMPLED_FWHM, cleanStars: cov.cleanStars, starsWithShapes: d.starsUsed },
+    });
+  } else if (cov.marginal && cov.adequate) {
+    out.push({
+      code: 'SMALL_STARS', severity: 'info',
+      message: `The stars are small: their median FWHM is ${fmt(cov.medianFwhmPx, 2)} px, below about 2 px, where a star's elongation and flare follow the pixel grid as much as the optics (optics.md 1.6). Tilt and curvature are judged from the star sizes; corner elongation, astigmatism and coma are not.`,
+      numbers: { medianFwhmPx: cov.medianFwhmPx, limitPx: 2 },
+    });
+  } else if (!cov.adequate && cov.cleanStars >= 30) {
+    out.push({
+      code: 'FEW_SHAPES', severity: 'info',
+      message: `The shapes of only ${d.starsUsed} of ${cov.cleanStars} clean stars could be measured (${cov.zonesWithShapes} of ${cov.zonesWithData} zones hold three or more), too few to judge tilt, spacing, coma and curvature across the field, although the stars themselves cover it.`,
+      numbers: { starsWithShapes: d.starsUsed, cleanStars: cov.cleanStars, zonesWithShapes: cov.zonesWithShapes, zonesWithData: cov.zonesWithData },
+    });
+  }
+  const ps = d.trailing.pixelShape;
+  if (ps?.explains) {
+    out.push({
+      code: 'PIXEL_SHAPE', severity: 'info',
+      message: `Every star is stretched about ${fmt(ps.axisRatio, 2)}:1 along ${fmt(ps.angleDeg, 0)} deg, the same way across the frame, as ${ps.source} says the pixels are on the sky (unequal pixel scales): this is the detector's geometry, not trailing or the optics.`,
+      numbers: { axisRatio: ps.axisRatio, angleDeg: ps.angleDeg },
     });
   }
   const t = d.tilt;
   const sigma = (s: number) => `${fmt(s, 1)} sigma`;
-  if (d.starsUsed < 30) {
+  if (d.starsUsed < 30 && cov.cleanStars < 30) {
     out.push({ code: 'FEW_STARS', severity: 'info', message: `Only ${d.starsUsed} clean stars: too few for a reliable field diagnosis; use a longer exposure or a richer field.`, numbers: { starsUsed: d.starsUsed } });
   }
   if (d.trailing.significant && d.trailing.kind === 'uniform') {
@@ -97,7 +128,15 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
   const cu = d.curvature;
   if (cu.significant) {
     const um = cu.cornerDefocusUm !== null ? `the corners sit about ${fmt(cu.cornerDefocusUm, 0)} +- ${fmtErr(cu.cornerDefocusErrUm)} um out of focus when the centre is sharp` : `the corners carry about ${fmt(cu.cornerBlurPx, 1)} px of defocus blur`;
-    out.push({
+    // An image circle (a circular fisheye): the softening toward its edge is the lens's own, no
+    // spacing or shim corrects it, so it is worth a look at most.
+    if (g.circle) out.push({
+      code: 'FIELD_CURVATURE',
+      severity: 'minor',
+      message: `Softer toward the edge of the image circle: stars stay round but grow toward the edge alike all round (${fmt(cu.roundGrowthRatio, 2)}x the centre size, ${sigma(cu.significance)}); ${um.replace('the corners sit', 'the edge sits').replace('the corners carry', 'the edge carries')}. With a fisheye this is the lens's own off-axis softening rather than a fault to correct: focusing a little off the centre balances it, and stopping down a stop or two sharpens the edge.`,
+      numbers: { cornerDefocusUm: cu.cornerDefocusUm, cornerDefocusErrUm: cu.cornerDefocusErrUm, cornerBlurPx: cu.cornerBlurPx, roundGrowthRatio: cu.roundGrowthRatio, radiusMm: cu.radiusMm, significance: cu.significance },
+    });
+    else out.push({
       code: 'FIELD_CURVATURE',
       severity: sev((cu.roundGrowthRatio ?? 1) >= MAJOR_RATIO),
       message: `Field curvature: stars stay round but grow toward all corners alike (${fmt(cu.roundGrowthRatio, 2)}x the centre size, ${sigma(cu.significance)}); ${um}${cu.radiusMm ? ` (focal surface radius about ${fmt(cu.radiusMm, 0)} mm)` : ''}. With a flattener, check its spacing (skyloupe sweep); with a bare lens, focus about a third of the way out from the centre for a better balance, or stop down. Astigmatism balanced at its medial focus looks the same in one frame.`,
@@ -119,11 +158,18 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
       message: `Coma: star flares point ${co.tail} and grow toward the edges (coma flare about ${fmt(co.cornerComaPx, 1)} +- ${fmtErr(co.gradientErrPx)} px at the corners, ${fmt((co.cornerComaRatio ?? 0) * 100, 0)} % of the star size; ${sigma(co.significance)}). ${why}${where}`,
       numbers: { tail: co.tail, cornerComaPx: co.cornerComaPx, cornerComaRatio: co.cornerComaRatio, gradientPx: co.gradientPx, gradientErrPx: co.gradientErrPx, centerX: co.centerPx?.x ?? null, centerY: co.centerPx?.y ?? null, centreOffsetFraction: co.centreOffsetFraction, significance: co.significance },
     });
+  } else if (co.significant && co.uniform && co.uniformAlongPixelAxis) {
+    // Along a pixel row or column a sensor's readout trail (charge transfer, bleeding) looks the same: a note.
+    out.push({
+      code: 'COMA_UNIFORM', severity: 'info',
+      message: `The same faint flare in every part of the frame (about ${fmt(Math.hypot(co.uniform.x, co.uniform.y), 1)} +- ${fmtErr(co.uniform.err)} px, ${sigma(co.significance)}), pointing along the pixel ${Math.abs(co.uniform.x) > Math.abs(co.uniform.y) ? 'rows' : 'columns'}: a readout trail of the sensor (charge transfer or bleeding along the readout direction) does this as well as collimation. Rotate the camera by 90 deg: a flare that turns with it is the sensor; one that stays is the optics.`,
+      numbers: { x: co.uniform.x, y: co.uniform.y, err: co.uniform.err, significance: co.significance },
+    });
   } else if (co.significant && co.uniform) {
     out.push({
       code: 'COMA_UNIFORM', severity: 'minor',
-      message: `The same coma flare in every part of the frame, centre included (about ${fmt(Math.hypot(co.uniform.x, co.uniform.y), 1)} +- ${fmtErr(co.uniform.err)} px): this is collimation or a decentred element, not field coma; collimate the optics (with a laser collimator, never look into the beam).`,
-      numbers: { x: co.uniform.x, y: co.uniform.y, err: co.uniform.err },
+      message: `The same coma flare in every part of the frame, centre included (about ${fmt(Math.hypot(co.uniform.x, co.uniform.y), 1)} +- ${fmtErr(co.uniform.err)} px, ${sigma(co.significance)}): this is collimation or a decentred element, not field coma; collimate the optics (with a laser collimator, never look into the beam).`,
+      numbers: { x: co.uniform.x, y: co.uniform.y, err: co.uniform.err, significance: co.significance },
     });
   }
   const optical = t.significant || sp.significant || cu.significant || co.significant;
@@ -142,7 +188,7 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
   if (!u.micrometres && optical) {
     out.push({ code: 'OPTICS_UNKNOWN', severity: 'info', message: `${capital(u.why ?? '')}.`, numbers: { fNumber: u.fNumber, pixelSizeUm: u.pixelSizeUm } });
   }
-  if (!out.some((f) => f.severity !== 'info') && d.starsUsed >= 30 && d.coverage.adequate) {
+  if (!out.some((f) => f.severity !== 'info') && d.starsUsed >= 30 && d.coverage.adequate && !d.coverage.undersampled) {
     // The measured corner-to-centre FWHM ratio (zone medians), not a model extrapolation.
     const zones = map?.zones.cells ?? [];
     const c = zones.find((z) => z.zone === 'center')?.fwhmPx ?? null;
@@ -154,7 +200,9 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
       : '';
     out.push({
       code: 'CLEAN', severity: 'info',
-      message: `No significant optical or tracking fault: from ${d.starsUsed} stars, tilt, corner elongation, coma, curvature and trailing are all within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}.`,
+      message: d.coverage.marginal
+        ? `No significant fault in what small stars can show: from ${d.starsUsed} stars, tilt, curvature and trailing are within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}; corner elongation and coma are not judged.`
+        : `No significant optical or tracking fault: from ${d.starsUsed} stars, tilt, corner elongation, coma, curvature and trailing are all within the noise${ratio ? ` (corner stars ${fmt(ratio, 2)}x the centre FWHM)` : ''}${bound}.`,
       numbers: { starsUsed: d.starsUsed, cornerToCentreFwhm: ratio },
     });
   }

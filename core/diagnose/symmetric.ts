@@ -80,7 +80,7 @@ export function symmetricPart(fa: FieldAnalysis, cols: StarColumns, model: Defoc
     if (p) {
       const q = qAt(p, u, v);
       const qs = p[P.a0] + p[P.a3] * r2;
-      tiltPart = modelT(p[P.T0], q) - modelT(p[P.T0], qs);
+      tiltPart = modelT(p[P.T0], q, 0, fa.core.beta) - modelT(p[P.T0], qs, 0, fa.core.beta);
     }
     y[i] = cols.T[i] - tiltPart;
     A[i * 3] = 1;

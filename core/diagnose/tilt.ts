@@ -7,9 +7,11 @@
 import type { FieldAnalysis } from '../field/map.ts';
 import { sideName } from '../field/geometry.ts';
 import { axialStdDeg, axisDeg, rng, std } from '../field/stats.ts';
+import { robustLinearFit } from '../field/lsq.ts';
 import { fitDefocus, smartStarts, defaultStarts, qAt, P, type DefocusData, type DefocusFit } from './defocus-fit.ts';
 import type { Units } from './context.ts';
 import type { CornerDefocus, TiltDiagnosis } from './types.ts';
+import { robustSigma } from './zone-check.ts';
 
 const BOOTSTRAP = 24;
 /** Delta chi^2 for two extra parameters: chi^2_2 exceeds 16 with probability e^-8 = 3e-4. */
@@ -39,12 +41,12 @@ export function defocusData(fa: FieldAnalysis, correction: Float64Array | null):
     v[i] = (cols.y[i] - centre.y) / geom.scale;
     T[i] = cols.T[i] - (correction ? correction[i] : 0);
   }
-  return { n, u, v, T, sig: cols.sigT, frame: null };
+  return { n, u, v, T, sig: cols.sigT, frame: null, beta: fa.core.beta };
 }
 
 function resample(d: DefocusData, pick: Int32Array): DefocusData {
   const take = (a: Float64Array) => Float64Array.from(pick, (i) => a[i]);
-  return { n: pick.length, u: take(d.u), v: take(d.v), T: take(d.T), sig: take(d.sig), frame: null };
+  return { n: pick.length, u: take(d.u), v: take(d.v), T: take(d.T), sig: take(d.sig), frame: null, beta: d.beta };
 }
 
 /** Flip all defocus terms (the single-frame twin solution). */
@@ -112,9 +114,22 @@ export function fitDefocusModel(fa: FieldAnalysis, correction: Float64Array | nu
   return { data, full, noTilt, noCurvature, boot, alternatives: minima.map((m) => m.p) };
 }
 
-function corners(fa: FieldAnalysis): { name: string; x: number; y: number; u: number; v: number }[] {
+/**
+ * The frame's four corners; for an image circle the farthest points with sky along the four
+ * diagonals from its centre (the frame's own corners hold no sky).
+ */
+export function corners(fa: FieldAnalysis): { name: string; x: number; y: number; u: number; v: number }[] {
   const g = fa.geom;
-  const pts: [number, number][] = [[-0.5, -0.5], [g.width - 0.5, -0.5], [-0.5, g.height - 0.5], [g.width - 0.5, g.height - 0.5]];
+  let pts: [number, number][] = [[-0.5, -0.5], [g.width - 0.5, -0.5], [-0.5, g.height - 0.5], [g.width - 0.5, g.height - 0.5]];
+  if (g.circle) {
+    const c = g.circle;
+    pts = pts.map(([x, y]): [number, number] => {
+      const dx = x - c.x;
+      const dy = y - c.y;
+      const t = Math.min(1, c.r / Math.max(1e-9, Math.hypot(dx, dy)));
+      return [c.x + t * dx, c.y + t * dy];
+    });
+  }
   return pts.map(([x, y]) => ({ name: sideName(g, x - g.cx, y - g.cy), x, y, u: (x - fa.centre.x) / g.scale, v: (y - fa.centre.y) / g.scale }));
 }
 
@@ -127,22 +142,58 @@ export function qRange(fa: FieldAnalysis, p: ArrayLike<number>): { min: number; 
   for (let r = 0; r <= 16; r++) for (let c = 0; c <= 16; c++) {
     const x = -0.5 + (c / 16) * g.width;
     const y = -0.5 + (r / 16) * g.height;
+    if (g.circle && Math.hypot(x - g.circle.x, y - g.circle.y) > g.circle.r) continue;
     const q = qAt(p, (x - fa.centre.x) / g.scale, (y - fa.centre.y) / g.scale);
     min = Math.min(min, q); max = Math.max(max, q); minAbs = Math.min(minAbs, Math.abs(q));
   }
   return { min, max, minAbs: min < 0 && max > 0 ? 0 : minAbs };
 }
 
+/**
+ * The half-flux diameter must agree: defocus grows every size of a star, so across the stars the
+ * HFD^2 must rise with the model's defocus term q^2 (slope > 0). Sizes that grow in moments but not
+ * in HFD (or the other way) are something else: crowding, clipped cores, the pixel grid. Robust
+ * fit of HFD^2 = a + b q^2 over the stars (Huber weights, intrinsic-scatter floor); the t value of
+ * b, or null when there are too few stars or no HFDs.
+ */
+export function hfdAgreement(fa: FieldAnalysis, model: DefocusModel): number | null {
+  const c = fa.cols;
+  const d = model.data;
+  const p = model.full.params;
+  const rows: number[] = [];
+  for (let i = 0; i < d.n; i++) if (Number.isFinite(c.hfd[i]) && c.hfd[i] > 0) rows.push(i);
+  if (rows.length < 20) return null;
+  const n = rows.length;
+  const A = new Float64Array(2 * n);
+  const y = new Float64Array(n);
+  const s = new Float64Array(n);
+  for (let k = 0; k < n; k++) {
+    const i = rows[k];
+    const q = qAt(p, d.u[i], d.v[i]);
+    A[2 * k] = 1;
+    A[2 * k + 1] = q * q;
+    y[k] = c.hfd[i] * c.hfd[i];
+    // sigma(HFD) ~ HFD / nu at the Fisher level of a size (optics.md 1.6), so sigma(HFD^2) ~ 2 HFD^2 / nu
+    s[k] = (2 * y[k]) / Math.max(1, c.snr[i]);
+  }
+  const f = robustLinearFit(A, y, s, 2, { mode: 'floor' });
+  if (!f) return null;
+  return f.coef[1] / Math.sqrt(Math.max(1e-300, f.cov[3]));
+}
+
+/** The HFD's agreement (t value of its slope against the defocus term) a tilt finding needs. */
+export const TILT_HFD_T = 2;
+
 const MODEL = 'T = T0 + K (delta0 + t.r + c r^2)^2, delta = local focus error, K = (1+eps^2)/(8 N^2 p^2) (optics.md section 4)';
 
-export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | null): TiltDiagnosis {
+export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | null, zoneSig: number | null = null): TiltDiagnosis {
   const none = (note: string, supported: boolean): TiltDiagnosis => ({
     significant: false, supported, note,
     axisDeg: null, axisErrDeg: null,
     acrossFrameUm: { x: null, y: null }, acrossFrameErrUm: { x: null, y: null },
     acrossFrameBlurPx: { x: null, y: null }, acrossFrameBlurErrPx: { x: null, y: null },
     tiltMrad: null, tiltErrMrad: null, signResolved: false, bestFocusInFrame: null,
-    corners: [], worstCornerRatio: null, significance: 0, deltaChi2: 0, starsUsed: fa.cols.n, model: MODEL,
+    corners: [], worstCornerRatio: null, significance: 0, zoneSignificance: null, hfdAgreement: null, deltaChi2: 0, starsUsed: fa.cols.n, model: MODEL,
   });
   if (!model) return none(`too few clean stars (${fa.cols.n}) to fit a focus plane; at least 20 are needed, better a few hundred`, false);
   const g = fa.geom;
@@ -179,10 +230,15 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
   const centreFwhm = 2.354820045 * Math.sqrt(Math.max(bestT, 1e-6) / 2);
   const blurMax = Math.max(blurX, blurY);
   const relErr = Math.hypot(errX, errY) / Math.max(1e-12, Math.hypot(aq.x, aq.y));
-  const significant = dchi2 >= TILT_DCHI2 && blurMax >= TILT_MIN_BLUR_FRACTION * centreFwhm && relErr < 0.5;
+  const sigma = robustSigma(Math.sqrt(dchi2), zoneSig);
+  const hfdT = hfdAgreement(fa, model);
+  const hfdAgrees = hfdT === null || hfdT >= TILT_HFD_T;
+  const significant = sigma >= Math.sqrt(TILT_DCHI2) && blurMax >= TILT_MIN_BLUR_FRACTION * centreFwhm && relErr < 0.5 && hfdAgrees;
   let note: string | null = null;
   if (!u.micrometres) note = u.why;
-  if (!significant && dchi2 >= TILT_DCHI2) note = [note, 'a focus gradient is detected but too small to matter (below a tenth of the star size across the frame)'].filter(Boolean).join('; ');
+  if (!hfdAgrees && sigma >= Math.sqrt(TILT_DCHI2)) note = [note, `the second moments show a focus gradient (${sigma.toFixed(1)} sigma) that the half-flux diameters do not follow (t = ${hfdT!.toFixed(1)}): crowding, clipped cores or the pixel grid rather than defocus`].filter(Boolean).join('; ');
+  else if (!significant && dchi2 >= TILT_DCHI2 && sigma < Math.sqrt(TILT_DCHI2)) note = [note, `the stars show a focus gradient (${Math.sqrt(dchi2).toFixed(1)} sigma) that the zone medians do not confirm (${sigma.toFixed(1)} sigma): a few stars, not the frame`].filter(Boolean).join('; ');
+  else if (!significant && dchi2 >= TILT_DCHI2) note = [note, 'a focus gradient is detected but too small to matter (below a tenth of the star size across the frame)'].filter(Boolean).join('; ');
   const altBig = alts.filter((a) => Math.hypot(a.x - aq.x, a.y - aq.y) > 0.3 * Math.max(1e-9, Math.hypot(aq.x, aq.y), Math.hypot(a.x, a.y)));
   if (altBig.length) {
     const a = altBig[0];
@@ -202,7 +258,9 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
     bestFocusInFrame: range.min < 0 && range.max > 0,
     corners: cs,
     worstCornerRatio,
-    significance: Math.sqrt(dchi2),
+    significance: sigma,
+    zoneSignificance: zoneSig,
+    hfdAgreement: hfdT,
     deltaChi2: dchi2,
     starsUsed: model.data.n,
     model: MODEL,

@@ -49,8 +49,12 @@ export interface TiltDiagnosis {
   corners: CornerDefocus[];
   /** Worst corner size against the best point, from the model (Gaussian-equivalent FWHM ratio). */
   worstCornerRatio: number | null;
-  /** sqrt of the chi^2 drop when the tilt terms are added to the symmetric model. */
+  /** sqrt of the chi^2 drop when the tilt terms are added to the symmetric model (stars), or the zones' if smaller. */
   significance: number;
+  /** The same test on zone medians, with their scatter (zone-check.ts); null when the zones are too few. */
+  zoneSignificance: number | null;
+  /** t value of the HFD^2 slope against the model's defocus term (> 2 needed: every size grows with defocus); null: not tested. */
+  hfdAgreement: number | null;
   deltaChi2: number;
   starsUsed: number;
   model: string;
@@ -70,6 +74,7 @@ export interface SpacingDiagnosis {
   outerERadial: number | null;
   outerERadialErr: number | null;
   significance: number;
+  zoneSignificance: number | null;
   /** The symmetric part of the corner size against the centre (FWHM-equivalent ratio), all four corners alike. */
   cornerToCentreSize: number | null;
   cornerToCentreSizeErr: number | null;
@@ -96,7 +101,13 @@ export interface ComaDiagnosis {
   cornerComaRatio: number | null;
   /** Uniform coma length across the frame, px (collimation or decentring), when it is significant. */
   uniform: { x: number; y: number; err: number } | null;
+  /**
+   * The uniform flare points along a pixel row or column (within 5 deg or 3 sigma): charge-transfer trails
+   * and bleeding along the readout do that too, so one frame cannot call it collimation.
+   */
+  uniformAlongPixelAxis: boolean;
   significance: number;
+  zoneSignificance: number | null;
   note: string | null;
 }
 
@@ -138,6 +149,7 @@ export interface CurvatureDiagnosis {
   radiusMm: number | null;
   signResolved: boolean;
   significance: number;
+  zoneSignificance: number | null;
   note: string | null;
 }
 
@@ -160,6 +172,12 @@ export interface TrailingDiagnosis {
     angleErrDeg: number;
   } | null;
   significance: number;
+  zoneSignificance: number | null;
+  /**
+   * The uniform stretch the header WCS implies (unequal pixel scales on the sky), when it matters
+   * (distortion 0.02 or more), and whether it explains the stars' uniform elongation (then no trail).
+   */
+  pixelShape: { axisRatio: number; angleDeg: number; source: string; explains: boolean } | null;
   note: string | null;
 }
 
@@ -188,8 +206,24 @@ export interface Diagnosis {
   optics: { fNumber: number | null; pixelSizeUm: number | null; focalLengthMm: number | null; micrometres: boolean; note: string | null };
   sizeMetric: string;
   starsUsed: number;
-  /** How well the stars cover the frame: 3x3 zones and corner zones holding at least 3 clean stars. */
-  coverage: { zonesWithStars: number; cornersWithStars: number; adequate: boolean };
+  /**
+   * How well the stars cover the frame's 3x3 zones that hold sky (zonesWithData, at most 9 and 4
+   * corners): zones with at least 3 clean stars (zonesWithStars), and with at least 3 stars whose
+   * shape was measured (zonesWithShapes); adequate when the shapes cover all but two zones and
+   * one corner. Undersampled: the clean stars' median FWHM is below about 1.5 px (Howell); marginal:
+   * below about 2 px, where shapes depend on the pixel phase (optics.md 1.6).
+   */
+  coverage: {
+    zonesWithData: number; cornersWithData: number;
+    zonesWithStars: number; cornersWithStars: number;
+    zonesWithShapes: number; cornersWithShapes: number;
+    cleanStars: number; medianFwhmPx: number | null;
+    cleanCover: boolean; undersampled: boolean; adequate: boolean;
+    /** Median FWHM from 1.5 to 2 px: sizes are judged, elongation and flare (spacing, astigmatism, coma) are not. */
+    marginal: boolean;
+  };
+  /** The seeing core the defocus model assumes: Moffat (from the sharper half's PSF fits) or Gaussian. */
+  coreProfile: { model: 'gaussian' | 'moffat'; moffatBeta: number | null; stars: number; moffatStars: number };
   centre: OpticalCentre;
   tilt: TiltDiagnosis;
   spacing: SpacingDiagnosis;

@@ -11,13 +11,22 @@ export interface Geometry {
   readonly scale: number;
   /** Which stored row the display shows at the top (for naming sides). */
   readonly displayTopRow: 'first' | 'last';
+  /** The image circle when the sky is a disc (a circular fisheye): then (cx, cy) is its centre and `scale` its radius. */
+  readonly circle: { x: number; y: number; r: number } | null;
 }
 
-export function geometry(width: number, height: number, displayTopRow: 'first' | 'last' = 'first'): Geometry {
+/**
+ * The frame's field coordinates. For an image circle (kind 'circle' of the data region) the unit
+ * of field height is the disc's radius about its centre, since the frame's corners hold no sky.
+ */
+export function geometry(width: number, height: number, displayTopRow: 'first' | 'last' = 'first', circle: { xPx: number; yPx: number; radiusPx: number } | null = null): Geometry {
   if (!(Number.isFinite(width) && Number.isFinite(height) && width >= 8 && height >= 8)) {
     throw usage(`frame size ${width} x ${height} is not usable for a field map (need at least 8 x 8 px)`);
   }
-  return { width, height, cx: (width - 1) / 2, cy: (height - 1) / 2, scale: 0.5 * Math.hypot(width, height), displayTopRow };
+  if (circle && circle.radiusPx > 0) {
+    return { width, height, cx: circle.xPx, cy: circle.yPx, scale: circle.radiusPx, displayTopRow, circle: { x: circle.xPx, y: circle.yPx, r: circle.radiusPx } };
+  }
+  return { width, height, cx: (width - 1) / 2, cy: (height - 1) / 2, scale: 0.5 * Math.hypot(width, height), displayTopRow, circle: null };
 }
 
 /** Name of a side or corner from the signs of dx, dy (pixel axes), as the frame is displayed. */

@@ -6,11 +6,15 @@ import { fitSpin1, fitSpin2 } from './spin.ts';
 import { fitSurface, evalSurface } from './surface.ts';
 import { adaptiveDims, radialColumns, radialProfile, zoneGrid, type RadialColumns } from './zones.ts';
 import type { FieldMap, OpticalCentre, Spin1Field, Spin2Field, XY } from './types.ts';
+import { coreProfile, type CoreProfile } from './profile.ts';
+import type { DataRegion } from '../image/data-region.ts';
 
 export interface FieldContext {
   readonly width: number;
   readonly height: number;
   readonly displayTopRow?: 'first' | 'last';
+  /** Where the frame holds sky; absent or null: the whole frame. */
+  readonly region?: DataRegion | null;
 }
 
 /** The map plus the per-star columns the diagnosis modules reuse (not serialised). */
@@ -23,6 +27,8 @@ export interface FieldAnalysis {
   readonly centre: XY;
   /** Uniform (frame-wide) part of M removed before the radial decomposition, px^2. */
   readonly uniform: { re: number; im: number };
+  /** The seeing core's profile (Moffat beta or Gaussian), for the defocus model's gain. */
+  readonly core: CoreProfile;
 }
 
 /** Significance needed before a pattern is allowed to locate the optical centre. */
@@ -75,16 +81,17 @@ export function estimateCentre(g: Geometry, s2: Spin2Field | null, s1: Spin1Fiel
 }
 
 export function analyzeField(stars: readonly Star[], ctx: FieldContext): FieldAnalysis {
-  const g = geometry(ctx.width, ctx.height, ctx.displayTopRow ?? 'first');
+  const region = ctx.region ?? null;
+  const g = geometry(ctx.width, ctx.height, ctx.displayTopRow ?? 'first', region?.kind === 'circle' ? region.circle : null);
   const cols = starColumns(stars);
   const spin2 = fitSpin2(cols, g);
   const spin1 = fitSpin1(cols, g);
   const centre = estimateCentre(g, spin2, spin1);
   const uniform = spin2 && spin2.cSignificance >= 4 ? spin2.c : { re: 0, im: 0 };
   const rad = radialColumns(cols, g, centre, uniform);
-  const zones = zoneGrid(cols, g, rad, 3, 3, true);
+  const zones = zoneGrid(cols, g, rad, 3, 3, true, region);
   const dims = adaptiveDims(cols.n, g);
-  const grid = zoneGrid(cols, g, rad, dims.cols, dims.rows);
+  const grid = zoneGrid(cols, g, rad, dims.cols, dims.rows, false, region);
   const surf = (v: Float64Array, s: Float64Array, q: string, unit: string, deg: number, mode: 'floor' | 'scale' = 'floor') =>
     cols.n >= 6 ? fitSurface(g, cols.x, cols.y, v, s, q, unit, deg, mode) : null;
   const surfaces = {
@@ -133,7 +140,7 @@ export function analyzeField(stars: readonly Star[], ctx: FieldContext): FieldAn
     spin2,
     spin1,
   };
-  return { map, cols, geom: g, rad, centre, uniform };
+  return { map, cols, geom: g, rad, centre, uniform, core: coreProfile(stars, cols) };
 }
 
 export function buildFieldMap(stars: readonly Star[], ctx: FieldContext): FieldMap {

@@ -14,6 +14,8 @@ export interface ZoneStats {
   /** 3x3 grid only: centre, edge or corner zone, and a display name (e.g. "top-left"). */
   zone?: 'center' | 'edges' | 'corners';
   name?: string;
+  /** Share of the zone's area that holds sky (data region); below 0.25 the zone is "no data". */
+  dataFraction?: number;
   n: number;
   /** Mean star position and normalised field height about the optical centre (corner of the frame = 1 about the frame centre). */
   meanX: number | null;

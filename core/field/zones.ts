@@ -4,6 +4,7 @@ import { sideName, zoneClass } from './geometry.ts';
 import type { StarColumns } from './quantities.ts';
 import { clippedMean, medianWithErr } from './stats.ts';
 import type { RadialBin, XY, ZoneGrid, ZoneStats } from './types.ts';
+import { regionFractionOf, type DataRegion } from '../image/data-region.ts';
 
 const nn = (v: number): number | null => (Number.isFinite(v) ? v : null);
 
@@ -84,7 +85,7 @@ function statsFor(c: StarColumns, rad: RadialColumns, pick: number[], col: numbe
   };
 }
 
-export function zoneGrid(c: StarColumns, g: Geometry, rad: RadialColumns, cols: number, rows: number, names = false): ZoneGrid {
+export function zoneGrid(c: StarColumns, g: Geometry, rad: RadialColumns, cols: number, rows: number, names = false, region: DataRegion | null = null): ZoneGrid {
   const cw = g.width / cols;
   const ch = g.height / rows;
   const members: number[][] = Array.from({ length: cols * rows }, () => []);
@@ -99,6 +100,8 @@ export function zoneGrid(c: StarColumns, g: Geometry, rad: RadialColumns, cols: 
     for (let q = 0; q < cols; q++) {
       const bounds = { x0: q * cw - 0.5, y0: r * ch - 0.5, x1: (q + 1) * cw - 0.5, y1: (r + 1) * ch - 0.5 };
       const z = statsFor(c, rad, members[r * cols + q], q, r, bounds);
+      // share of the zone that holds sky: below a quarter it is a "no data" zone (a fisheye's corners)
+      z.dataFraction = region ? regionFractionOf(region, bounds.x0, bounds.y0, bounds.x1, bounds.y1) : 1;
       if (names) {
         z.zone = zoneClass(q, r);
         z.name = sideName(g, q - 1, r - 1);

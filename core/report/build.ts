@@ -19,10 +19,11 @@ export function usable(s: Star): boolean {
  * Centre = within 25 % of the half-diagonal of the frame centre; corners = beyond 75 %
  * (simple radial zones for the summary; the field map has the full zone grid).
  */
-export function radialZone(s: { x: number; y: number }, width: number, height: number): 'center' | 'corners' | 'middle' {
-  const cx = (width - 1) / 2;
-  const cy = (height - 1) / 2;
-  const r = Math.hypot(s.x - cx, s.y - cy) / Math.hypot(cx, cy);
+export function radialZone(s: { x: number; y: number }, width: number, height: number, circle: { xPx: number; yPx: number; radiusPx: number } | null = null): 'center' | 'corners' | 'middle' {
+  // an image circle (circular fisheye): zones about its centre, in units of its radius
+  const cx = circle ? circle.xPx : (width - 1) / 2;
+  const cy = circle ? circle.yPx : (height - 1) / 2;
+  const r = Math.hypot(s.x - cx, s.y - cy) / (circle ? circle.radiusPx : Math.hypot(cx, cy));
   return r <= 0.25 ? 'center' : r >= 0.75 ? 'corners' : 'middle';
 }
 
@@ -68,8 +69,9 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
   const good = a.stars.filter(usable);
   const plate = a.optics.plateScaleArcsecPerPx;
   const { width, height } = a.frame;
-  const center = good.filter((s) => radialZone(s, width, height) === 'center');
-  const corners = good.filter((s) => radialZone(s, width, height) === 'corners');
+  const circle = a.frame.dataRegion?.kind === 'circle' ? a.frame.dataRegion.circle : null;
+  const center = good.filter((s) => radialZone(s, width, height, circle) === 'center');
+  const corners = good.filter((s) => radialZone(s, width, height, circle) === 'corners');
   const fwhm = med(good.map((s) => s.fwhmPx));
   return {
     schema: REPORT_SCHEMA,
@@ -83,6 +85,8 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
           ? 'displayed with the last stored row at the top (FITS convention: y increases upward)'
           : 'displayed with the first stored row at the top',
       },
+      dataRegion: a.frame.dataRegion,
+      pixelShape: a.frame.pixelShape,
     },
     conventions: {
       coordinates: '0-based array coordinates: x = column, y = row in storage order, pixel centres at integers',
@@ -94,6 +98,7 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
       threshold: a.detection.threshold,
       candidates: a.detection.candidates,
       measured: a.detection.measured,
+      outsideData: a.detection.outsideData,
       usedForField: good.length,
       subset: a.detection.subset,
       flagged: a.detection.flagged,

@@ -1,15 +1,11 @@
 import type { Analysis } from '../analyze.ts';
 import { diagnose } from '../diagnose/index.ts';
+import { contextOf } from '../diagnose/context.ts';
 import { buildReport } from './build.ts';
 import type { Report } from './types.ts';
 
 /** The full single-frame report: measurement plus field map, diagnosis and findings. */
 export function reportFromAnalysis(a: Analysis, path: string): Report {
-  const { field, diagnosis, findings } = diagnose(a.stars, {
-    width: a.frame.width,
-    height: a.frame.height,
-    optics: a.optics,
-    displayTopRow: a.frame.displayTopRow,
-  });
+  const { field, diagnosis, findings } = diagnose(a.stars, contextOf(a));
   return buildReport(a, path, { field, diagnosis, findings });
 }

@@ -1,5 +1,7 @@
 import type { Optics } from '../frame/types.ts';
 import type { StarFlag } from '../stars/types.ts';
+import type { DataRegion } from '../image/data-region.ts';
+import type { PixelShape } from '../diagnose/pixel-shape.ts';
 
 export const REPORT_SCHEMA = 'skyloupe.report/1';
 
@@ -40,6 +42,10 @@ export interface Report {
     optics: Optics;
     /** How the frame is displayed: which stored row is shown at the top. */
     display: { topRow: 'first' | 'last'; note: string };
+    /** Where the frame holds sky: kind full | circle | mask, the image circle, the sky fraction, vignetting (DESIGN.md, turn 2). */
+    dataRegion: DataRegion;
+    /** The stretch round stars take from the pixels' shape on the sky (header WCS); null without a WCS. */
+    pixelShape: PixelShape | null;
   };
   conventions: { coordinates: string; angles: string; fwhm: string };
   sky: { level: number; sigma: number; boxPx: number };
@@ -47,6 +53,8 @@ export interface Report {
     threshold: number;
     candidates: number;
     measured: number;
+    /** Detections outside the data region (no sky there), dropped before measuring. */
+    outsideData: number;
     usedForField: number;
     subset: null | { of: number; rule: string };
     flagged: Partial<Record<StarFlag, number>>;
