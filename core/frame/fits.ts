@@ -256,7 +256,7 @@ const STORED_RANGE: Record<number, [number, number]> = {
 const META_KEYS = [
   'OBJECT', 'TELESCOP', 'INSTRUME', 'DATE-OBS', 'EXPTIME', 'EXPOSURE', 'FILTER', 'IMAGETYP',
   'GAIN', 'OFFSET', 'EGAIN', 'ISOSPEED', 'CCD-TEMP', 'SET-TEMP', 'XBINNING', 'YBINNING',
-  'XPIXSZ', 'YPIXSZ', 'PIXSIZE1', 'PIXSIZE2', 'FOCALLEN', 'FOCRATIO', 'APTDIA', 'FOCPOS', 'FOCUSPOS',
+  'XPIXSZ', 'YPIXSZ', 'PIXSIZE1', 'PIXSIZE2', 'FOCALLEN', 'FOCRATIO', 'FNUMBER', 'APTDIA', 'FOCPOS', 'FOCUSPOS',
   'BAYERPAT', 'XBAYROFF', 'YBAYROFF', 'ROWORDER', 'SATURATE', 'DATAMAX', 'SWCREATE', 'CREATOR',
   'BITPIX', 'BZERO', 'BSCALE', 'BLANK', 'NAXIS3',
 ];
@@ -271,22 +271,30 @@ function positive(v: FitsCard['value'] | undefined): number | undefined {
  * FOCALLEN (mm), APTDIA (mm), FOCRATIO, XPIXSZ/YPIXSZ (µm), XBINNING/YBINNING.
  * XPIXSZ is the pitch of the stored pixels, binning included (the keyword's documented
  * meaning is the pixel width after binning [CP, from memory]). PIXSIZE1 (µm) is a fallback
- * some programs write [CP, from memory].
+ * some programs write [CP, from memory]. The f-number: FOCRATIO, else FNUMBER (written by
+ * some capture programs [CP, from memory]); without either, FOCALLEN / APTDIA in
+ * resolveOptics. `keywords` records which card served each value.
  */
 export function fitsOpticsHints(keys: FitsKeys): OpticsHints | null {
   const h: OpticsHints = { from: 'header' };
-  const fl = positive(keys.get('FOCALLEN'));
-  const px = positive(keys.get('XPIXSZ')) ?? positive(keys.get('PIXSIZE1'));
-  const fn = positive(keys.get('FOCRATIO'));
-  const ap = positive(keys.get('APTDIA'));
+  const kw: NonNullable<OpticsHints['keywords']> = {};
+  const first = (names: string[]): [number, string] | undefined => {
+    for (const k of names) { const v = positive(keys.get(k)); if (v !== undefined) return [v, k]; }
+    return undefined;
+  };
+  const fl = first(['FOCALLEN']);
+  const px = first(['XPIXSZ', 'PIXSIZE1']);
+  const fn = first(['FOCRATIO', 'FNUMBER']);
+  const ap = first(['APTDIA']);
   const bin = positive(keys.get('XBINNING'));
   const cam = keys.get('INSTRUME');
-  if (fl !== undefined) h.focalLengthMm = fl;
-  if (px !== undefined) h.pixelSizeUm = px;
-  if (fn !== undefined) h.fNumber = fn;
-  if (ap !== undefined) h.apertureMm = ap;
+  if (fl !== undefined) { h.focalLengthMm = fl[0]; kw.focalLengthMm = fl[1]; }
+  if (px !== undefined) { h.pixelSizeUm = px[0]; kw.pixelSizeUm = px[1]; }
+  if (fn !== undefined) { h.fNumber = fn[0]; kw.fNumber = fn[1]; }
+  if (ap !== undefined) { h.apertureMm = ap[0]; kw.apertureMm = ap[1]; }
   if (bin !== undefined && Number.isInteger(bin)) h.binning = bin;
   if (typeof cam === 'string' && cam.trim() !== '') h.camera = cam.trim();
+  if (Object.keys(kw).length) h.keywords = kw;
   return Object.keys(h).length > 1 ? h : null;
 }
 

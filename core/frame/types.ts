@@ -13,6 +13,16 @@ export interface Optics {
     readonly pixelSizeUm: OpticsSource;
     readonly fNumber: OpticsSource;
     readonly plateScaleArcsecPerPx: OpticsSource;
+    /**
+     * Which header card or EXIF tag served each value read from the file ('FOCRATIO',
+     * 'FNUMBER', 'FOCALLEN/APTDIA', 'XPIXSZ', 'FNumber', ...); null for a user value or an
+     * unknown one. (Optional so that optics built elsewhere, e.g. in tests, need not state it.)
+     */
+    readonly keywords?: {
+      readonly focalLengthMm: string | null;
+      readonly pixelSizeUm: string | null;
+      readonly fNumber: string | null;
+    };
   };
 }
 
@@ -26,6 +36,8 @@ export interface OpticsHints {
   binning?: number;
   /** What the hints were read from. */
   from: 'header' | 'exif';
+  /** The header card or EXIF tag each value came from (FOCALLEN, FOCRATIO, FNUMBER, APTDIA, XPIXSZ, ...). */
+  keywords?: { focalLengthMm?: string; pixelSizeUm?: string; fNumber?: string; apertureMm?: string };
   camera?: string;
 }
 

@@ -35,7 +35,7 @@ export function findingsHtml(findings: Report['findings']): string {
 export function summaryHtml(report: Report): string {
   const o = report.frame.optics;
   const s = report.summary;
-  const src = (k: keyof typeof o.source) => (o.source[k] ? ` <span class="src">(${esc(o.source[k])})</span>` : '');
+  const src = (k: 'focalLengthMm' | 'pixelSizeUm' | 'fNumber') => (o.source[k] ? ` <span class="src">(${esc(o.source[k])}${o.source.keywords?.[k] ? ` ${esc(o.source.keywords[k])}` : ''})</span>` : '');
   const rows: [string, string][] = [
     ['Frame', `${esc(report.frame.path)} · ${report.frame.width} × ${report.frame.height} px · ${esc(report.frame.format)}${report.frame.cfa ? ` · ${esc(report.frame.cfa)} mosaic` : ''}`],
     ['Optics', `focal length ${num(o.focalLengthMm, 0)} mm${src('focalLengthMm')} · pixel ${num(o.pixelSizeUm, 2)} µm${src('pixelSizeUm')} · f/${num(o.fNumber, 1)}${src('fNumber')} · ${num(o.plateScaleArcsecPerPx, 3)} ″/px`],
