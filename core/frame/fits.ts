@@ -345,11 +345,13 @@ export function decodeFits(bytes: Uint8Array): Frame {
   const blank = bitpix > 0 && typeof bv === 'number' && Number.isInteger(bv) ? bv : null;
 
   let saturationLevel: number | null = null;
+  let saturationSource: Frame['saturationSource'];
   if (bitpix > 0) {
     let [lo, hi] = STORED_RANGE[bitpix];
     if (blank === hi) hi -= 1;
     if (blank === lo) lo += 1;
     saturationLevel = Math.fround(bscale > 0 ? bzero + bscale * hi : bzero + bscale * lo);
+    saturationSource = 'integer-ceiling';
   }
 
   const n = width * height;
@@ -400,6 +402,14 @@ export function decodeFits(bytes: Uint8Array): Frame {
     if (image.axes.length >= 3) meta.NAXIS3 = image.axes[2]; else delete meta.NAXIS3;
     meta.ZCMPTYPE = image.tiled.compression;
   }
+  // SATURATE [CP: the level at which the detector saturates, in data units, written by capture
+  // programs and pipelines; Source Extractor's SATUR_KEY default], then DATAMAX (FITS 4.0
+  // §4.4.2.5: the largest valid physical value): a level the file states wins over the ceiling.
+  for (const k of ['SATURATE', 'DATAMAX'] as const) {
+    const v = merged.get(k);
+    if (typeof v === 'number' && Number.isFinite(v) && v > 0) { saturationLevel = Math.fround(v); saturationSource = k; break; }
+  }
+  const quality = extra === 1 && !image.tiled ? readQuality(bytes, image, primary, width, height, data) : null;
   const roworder = merged.get('ROWORDER');
   // ROWORDER [CP: ASCOM/capture programs]: 'TOP-DOWN' = first stored row shown at the top;
   // otherwise the usual FITS display convention, first pixel at the lower left [CP, from memory].
@@ -411,9 +421,67 @@ export function decodeFits(bytes: Uint8Array): Frame {
     data,
     format: image.tiled ? 'fits-tiled' : 'fits',
     saturationLevel,
+    ...(saturationSource ? { saturationSource } : {}),
+    ...(quality ? { saturatedMask: quality.saturated, qualitySource: quality.source, qualityCounts: quality.counts } : {}),
     cfa: extra === 1 ? cfaFromKeys(merged) : null,
     displayTopRow,
     hints: fitsOpticsHints(merged),
     meta,
   };
+}
+
+/**
+ * Data-quality bits of known missions. HST (ACS, and the other instruments' calibrated files
+ * share these bits [from memory beyond ACS]): 256 full-well or A-to-D saturated, 2048 A-to-D
+ * saturated; unusable: 1 lost in compression, 2 replaced by fill, 4 bad detector pixel, 8 masked
+ * by an aperture feature (the HRC occulting finger), 128 bad column (the ACS DQ table as
+ * published by STScI in its stginga viewer's DQ definitions). JWST: bit 1 (value 2) SATURATED,
+ * bit 0 (value 1) DO_NOT_USE (the jwst pipeline's data-quality flag table). Other DQ or MASK
+ * images: any non-zero value marks a pixel not to use [CP].
+ */
+const DQ_BITS: Record<string, { saturated: number; unusable: number }> = {
+  HST: { saturated: 256 | 2048, unusable: 1 | 2 | 4 | 8 | 128 },
+  JWST: { saturated: 2, unusable: 1 },
+};
+
+/**
+ * The quality image that goes with the science image: the first IMAGE extension after it named
+ * DQ (or MASK / BPM) with the same size and EXTVER, integer-valued. Unusable pixels become NaN
+ * in `data` (the frame's own decoded copy; the file is never touched); saturated pixels are
+ * returned as a mask. Null when there is none (or it is malformed: the image stays readable).
+ */
+function readQuality(bytes: Uint8Array, image: Hdu, primary: Hdu, width: number, height: number, data: Float32Array):
+  { saturated: Uint8Array | null; source: 'DQ' | 'mask'; counts: { saturated: number; unusable: number } } | null {
+  const extver = image.keys.get('EXTVER') ?? 1;
+  let h = image;
+  try {
+    for (let index = image.index + 1; index < 1000; index++) {
+      const next = h.dataOffset + Math.ceil(h.dataBytes / BLOCK) * BLOCK;
+      if (!Number.isFinite(next) || next + BLOCK > bytes.length || !startsWith(bytes, next, 'XTENSION=')) return null;
+      h = readHdu(bytes, next, index);
+      const name = String(h.keys.get('EXTNAME') ?? '').trim().toUpperCase();
+      if (h.kind !== 'IMAGE' || !['DQ', 'MASK', 'BPM'].includes(name)) continue;
+      if ((h.keys.get('EXTVER') ?? 1) !== extver || h.bitpix <= 0 || h.axes.length !== 2 || h.axes[0] !== width || h.axes[1] !== height) continue;
+      if (h.dataOffset + h.dataBytes > bytes.length) return null;
+      const n = width * height;
+      const q = new Float32Array(n);
+      decodeSamples(bytes, h.dataOffset, n, h.bitpix, numKey(h.keys, 'BZERO', 0), numKey(h.keys, 'BSCALE', 1), null, q);
+      const telescope = String(primary.keys.get('TELESCOP') ?? image.keys.get('TELESCOP') ?? '').trim().toUpperCase();
+      const bits = name === 'DQ' ? DQ_BITS[telescope] : undefined;
+      const sat = bits ? new Uint8Array(n) : null;
+      let nSat = 0, nBad = 0;
+      for (let i = 0; i < n; i++) {
+        const v = q[i];
+        if (v === 0) continue;
+        if (!bits) { data[i] = NaN; nBad++; continue; }
+        const b = v | 0;
+        if (b & bits.unusable) { data[i] = NaN; nBad++; }
+        if (b & bits.saturated) { sat![i] = 1; nSat++; }
+      }
+      return { saturated: nSat ? sat : null, source: name === 'DQ' ? 'DQ' : 'mask', counts: { saturated: nSat, unusable: nBad } };
+    }
+  } catch {
+    return null; // a broken extension after the image does not make the image unreadable
+  }
+  return null;
 }

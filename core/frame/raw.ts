@@ -195,6 +195,7 @@ export async function decodeRaw(bytes: Uint8Array): Promise<Frame> {
     data,
     format: 'raw',
     saturationLevel: pattern === 'xtrans' ? 9 * sat : sat,
+    saturationSource: 'white-level',
     cfa,
     displayTopRow: 'first',
     hints: Object.keys(hints).length > 1 ? hints : null,

@@ -55,8 +55,20 @@ export interface Frame {
   readonly height: number;
   readonly data: Float32Array;
   readonly format: FrameFormat;
-  /** Highest value the encoding can hold (after BZERO/BSCALE), used to flag saturation; null if unbounded (float data). */
+  /**
+   * Level at which pixels are clipped: the SATURATE or DATAMAX keyword, the raw white level, or
+   * the highest value the encoding can hold (after BZERO/BSCALE); null if unbounded (float data)
+   * and nothing says. The data may still show a lower clip (core/frame/saturation.ts).
+   */
   readonly saturationLevel: number | null;
+  /** What saturationLevel came from (absent: the integer ceiling, or none when the level is null). */
+  readonly saturationSource?: 'SATURATE' | 'DATAMAX' | 'white-level' | 'integer-ceiling';
+  /** Pixels a data-quality or mask extension marks saturated (1 = saturated), storage order; absent if none. */
+  readonly saturatedMask?: Uint8Array | null;
+  /** Which extension gave the mask and set unusable pixels to NaN: a DQ or MASK image; absent if none. */
+  readonly qualitySource?: 'DQ' | 'mask';
+  /** How many pixels the quality extension marked saturated and unusable (set to NaN). */
+  readonly qualityCounts?: { readonly saturated: number; readonly unusable: number };
   /** Colour-filter-array layout if the stored pixels are a raw mosaic. */
   readonly cfa: CfaPattern | null;
   /** Which stored row is shown at the top of the display. */
@@ -78,4 +90,6 @@ export interface MeasurePlane {
   readonly scale: number;
   readonly offset: number;
   readonly saturationLevel: number | null;
+  /** Plane pixels marked saturated by a DQ or mask extension (any of a superpixel's four); null if none. */
+  readonly saturatedMask?: Uint8Array | null;
 }

@@ -83,6 +83,7 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
           ? 'displayed with the last stored row at the top (FITS convention: y increases upward)'
           : 'displayed with the first stored row at the top',
       },
+      saturation: { ...a.frame.saturation },
     },
     conventions: {
       coordinates: '0-based array coordinates: x = column, y = row in storage order, pixel centres at integers',

@@ -40,6 +40,12 @@ export interface Report {
     optics: Optics;
     /** How the frame is displayed: which stored row is shown at the top. */
     display: { topRow: 'first' | 'last'; note: string };
+    /**
+     * Where the frame clips (DESIGN.md, turn 2): `level` in the frame's units (null when only a
+     * per-pixel mask or nothing says), `source`: SATURATE | DATAMAX | DQ | white-level |
+     * integer-ceiling | plateau | flat-cores | none; `pixels`: saturated pixels a DQ extension marks.
+     */
+    saturation?: { level: number | null; source: string; pixels?: number };
   };
   conventions: { coordinates: string; angles: string; fwhm: string };
   sky: { level: number; sigma: number; boxPx: number };
