@@ -6,6 +6,7 @@ import { convolveInBands, filteredNoiseFactor } from './image/convolve.ts';
 import { detectStars, estimatePsfSigma, flagSaturatedAt, localMaximaInBands, matchedFilterTaps, PSF_PEAK_SIGMA, DEFAULT_DETECT_SIGMA } from './stars/detect.ts';
 import { frameSaturation, type Saturation, type SaturationSource } from './frame/saturation.ts';
 import { packStamps } from './stars/stamps.ts';
+import { implausibleFlags } from './stars/plausible.ts';
 import { measureAll } from './stars/measure-batch.ts';
 import { shareWith } from './parallel/bands.ts';
 import type { WorkerPool } from './parallel/pool.ts';
@@ -154,7 +155,7 @@ function finish(
   timings: Record<string, number>, lap: (n: string) => void, progress: (stage: string, f: number) => void,
   saturation: Saturation,
 ): Analysis {
-  const stars = finishStars(measured, plane.scale, plane.offset);
+  const stars = finishStars(measured, plane.scale, plane.offset, plane.width, plane.height, 2.354820045 * det.psfSigmaPx);
   const flagged: Partial<Record<StarFlag, number>> = {};
   for (const s of stars) for (const f of s.flags) flagged[f] = (flagged[f] ?? 0) + 1;
   lap('finish');
@@ -225,15 +226,14 @@ function checkFrameHasSignal(data: Float32Array): void {
 
 /**
  * Map plane coordinates to the full-resolution frame, and add the flags that need the
- * whole population: much smaller than the typical star (cosmic ray) or too faint.
+ * whole population: no star of this frame by its size or concentration (a cosmic ray, a
+ * noise blob: stars/plausible.ts), or too faint.
  */
-function finishStars(stars: Star[], scale: number, offset: number): Star[] {
-  const good = stars.filter((s) => s.flags.length === 0 && Number.isFinite(s.fwhmPx));
-  const sizes = Float64Array.from(good.map((s) => s.fwhmPx));
-  const typical = sizes.length ? median(sizes, sizes.length) : NaN;
-  return stars.map((s) => {
+function finishStars(stars: Star[], scale: number, offset: number, width: number, height: number, psfFwhmPx: number): Star[] {
+  const extra = implausibleFlags(stars, width, height, psfFwhmPx);
+  return stars.map((s, i) => {
     const flags = [...s.flags];
-    if (Number.isFinite(typical) && s.fwhmPx < 0.5 * typical && !flags.includes('hot-pixel') && !flags.includes('cosmic-ray')) flags.push('cosmic-ray');
+    for (const f of extra[i]) if (!flags.includes(f)) flags.push(f);
     if (!(s.snr >= MIN_FIELD_SNR) && !flags.includes('low-snr')) flags.push('low-snr');
     if (scale === 1 && offset === 0 && flags.length === s.flags.length) return s;
     const k = scale;

@@ -26,6 +26,14 @@ const FLAT_REL_TOL = 0.01;
 /** Half-size of the box searched, px (holds the half-maximum area of a trailed or defocused star). */
 const R = 15;
 
+/**
+ * A plateau is two-dimensional: its pixels spread at least this much (px^2) across their long
+ * axis. A 1-px wide line (a cosmic-ray track, a satellite trail, a bleed column alone) spreads at
+ * most 0.125 (a diagonal staircase); 5 pixels in a plus or a 2 x 3 block spread 0.25 to 0.4.
+ */
+const FLAT_MIN_THICKNESS = 0.2;
+
+const MOM = new Float64Array(6);
 let SEEN = new Uint8Array(0);
 const STACK: number[] = [];
 
@@ -49,9 +57,17 @@ export function flatTop(img: Float32Array, width: number, height: number, x: num
   const tol = Math.max(FLAT_REL_TOL * ref, 3 * noise);
   // pixels within tol of ref, connected to the peak (through brighter ones too), and the half-maximum area
   const top = region(img, width, height, x, y, ref - tol, ref + tol);
-  if (top < FLAT_MIN_PIXELS) return NaN;
+  if (top < FLAT_MIN_PIXELS || minorVariance() < FLAT_MIN_THICKNESS) return NaN;
   const half = region(img, width, height, x, y, 0.5 * ref, Infinity);
   return top >= FLAT_MIN_FRACTION * half ? ref : NaN;
+}
+
+/** Variance of the last region's counted pixels across their long axis, px^2 (second moments). */
+function minorVariance(): number {
+  const n = MOM[0];
+  const mx = MOM[1] / n, my = MOM[2] / n;
+  const xx = MOM[3] / n - mx * mx, yy = MOM[4] / n - my * my, xy = MOM[5] / n - mx * my;
+  return 0.5 * (xx + yy) - Math.sqrt(0.25 * (xx - yy) * (xx - yy) + xy * xy);
 }
 
 /** Pixels in [floor, ceil] among those >= floor 4-connected to (x0, y0) within the (2R+1)^2 box. */
@@ -64,10 +80,15 @@ function region(img: Float32Array, width: number, height: number, x0: number, y0
   STACK.push(R * size + R);
   SEEN[R * size + R] = 1;
   let n = 0;
+  MOM.fill(0);
   while (STACK.length) {
     const k = STACK.pop()!;
     const ky = (k / size) | 0;
-    if (img[(y0 + ky - R) * width + (x0 + k - ky * size - R)] <= ceil) n++;
+    const kx = k - ky * size;
+    if (img[(y0 + ky - R) * width + (x0 + kx - R)] <= ceil) {
+      n++;
+      MOM[1] += kx; MOM[2] += ky; MOM[3] += kx * kx; MOM[4] += ky * ky; MOM[5] += kx * ky;
+    }
     const ly = (k / size) | 0;
     const lx = k - ly * size;
     for (let j = 0; j < 4; j++) {
@@ -81,5 +102,6 @@ function region(img: Float32Array, width: number, height: number, x0: number, y0
       if (img[gy * width + gx] >= floor) { SEEN[kk] = 1; STACK.push(kk); }
     }
   }
+  MOM[0] = n;
   return n;
 }

@@ -7,7 +7,8 @@ export type StarFlag =
   | 'blended'     // another source within the fitting stamp
   | 'fit-failed'  // no converged PSF fit (none is tried for a hot pixel)
   | 'low-snr'     // below the measurement SNR threshold
-  | 'streak';     // on a long line: satellite or meteor trail, aircraft lights
+  | 'streak'      // on a long line: satellite or meteor trail, aircraft lights
+  | 'spurious';   // no star of this frame: much narrower or wider than its neighbours, or too diffuse (noise blob, artefact)
 
 /** A detection candidate from the matched filter, in measured-plane pixels. */
 export interface Candidate {

@@ -137,6 +137,16 @@ describe('flat-topped cores (clipped.ts)', () => {
     expect(flatTop(img, 61, 61, x, y, 10)).toBe(1e4);
   });
 
+  it('a cosmic-ray track (a 1-px line of equal values, straight or diagonal) is no plateau', () => {
+    for (const diagonal of [false, true]) {
+      const img = new Float32Array(61 * 61);
+      for (let k = 0; k < 8; k++) {
+        img[(30 + (diagonal ? k >> 1 : 0)) * 61 + 26 + k] = 1600 + 40 * (k % 2);
+      }
+      expect(flatTop(img, 61, 61, 26, 30, 30)).toBeNaN();
+    }
+  });
+
   it('a faint core (below 50 sky sigmas) is never called flat', () => {
     const img = star(1.5, 30, 30, 3e3, 400);
     const [x, y] = brightest(img);
