@@ -9,6 +9,7 @@
  * found. A DQ or mask extension also marks saturated pixels one by one, whatever the level.
  */
 import type { Frame } from './types.ts';
+import { median } from '../image/stats.ts';
 
 /** Which source gave the saturation level (report: frame.saturation.source). */
 export type SaturationSource =
@@ -45,7 +46,7 @@ export function frameSaturation(frame: Frame): Saturation {
   }
   if (mask && frame.qualitySource === 'DQ') return { level: frame.saturationLevel, source: 'DQ', mask };
   const ceiling = decoded === 'integer-ceiling' ? frame.saturationLevel : null;
-  const p = findPlateau(frame.data, ceiling);
+  const p = findPlateau(frame.data, ceiling, frame.width);
   if (p.plateau !== null) return { level: p.plateau, source: 'plateau', mask };
   return { level: ceiling, source: ceiling === null ? 'none' : 'integer-ceiling', mask };
 }
@@ -61,15 +62,29 @@ export function frameSaturation(frame: Frame): Saturation {
  * 99.5 % rule downstream takes the whole band), or null; and `atCeiling`, the pixels at or
  * above the ceiling.
  */
-export function findPlateau(data: Float32Array, ceiling: number | null): { plateau: number | null; atCeiling: number } {
+export function findPlateau(data: Float32Array, ceiling: number | null, width = data.length): { plateau: number | null; atCeiling: number } {
   const n = data.length;
   const ceil = ceiling ?? Infinity;
+  const rows = Math.ceil(n / width);
+  // one tight pass for each row's maximum; the few rows that reach the ceiling or the top band
+  // are read again (a second full pass cost as much as the first on 24 Mpx)
+  const rowMax = new Float32Array(rows);
+  for (let r = 0, i = 0; r < rows; r++) {
+    let m = -Infinity;
+    const end = Math.min(n, i + width);
+    for (; i < end; i++) { const v = data[i]; if (v > m) m = v; }
+    rowMax[r] = m;
+  }
   let vmax = -Infinity;
   let atCeiling = 0;
-  for (let i = 0; i < n; i++) {
-    const v = data[i];
-    if (v >= ceil) { atCeiling++; continue; }
-    if (v > vmax) vmax = v; // NaN compares false
+  for (let r = 0; r < rows; r++) {
+    const m = rowMax[r];
+    if (m < ceil) { if (m > vmax) vmax = m; continue; }
+    for (let i = r * width, end = Math.min(n, i + width); i < end; i++) {
+      const v = data[i];
+      if (v >= ceil) atCeiling++;
+      else if (v > vmax) vmax = v;
+    }
   }
   if (!(vmax > -Infinity)) return { plateau: null, atCeiling };
   const { level: sky, sigma, step } = skySample(data);
@@ -77,30 +92,35 @@ export function findPlateau(data: Float32Array, ceiling: number | null): { plate
   const w = Math.max(step, 0.005 * (vmax - sky));
   const top = vmax - w, below = vmax - 2 * w;
   let nTop = 0, nBelow = 0, lowest = vmax;
-  for (let i = 0; i < n; i++) {
-    const v = data[i];
-    if (v < below || v >= ceil) continue;
-    if (v >= top) { nTop++; if (v < lowest) lowest = v; } else nBelow++;
+  for (let r = 0; r < rows; r++) {
+    if (!(rowMax[r] >= below)) continue;
+    for (let i = r * width, end = Math.min(n, i + width); i < end; i++) {
+      const v = data[i];
+      if (v < below || v >= ceil) continue;
+      if (v >= top) { nTop++; if (v < lowest) lowest = v; } else nBelow++;
+    }
   }
   const plateau = nTop >= PLATEAU_MIN_PIXELS && nTop >= 3 * Math.max(1, nBelow);
   return { plateau: plateau ? lowest : null, atCeiling };
 }
 
 /**
- * Median and MAD sigma of a regular subsample (about 100 000 pixels), and the data's smallest
+ * Median and MAD sigma of a regular subsample (about 20 000 pixels), and the data's smallest
  * step between distinct sampled values (1 for integer data, 16 for 12-bit data scaled by 16,
  * ~0 for float data).
  */
 function skySample(data: Float32Array): { level: number; sigma: number; step: number } {
-  const stride = Math.max(1, Math.floor(data.length / 100_000));
-  const s: number[] = [];
-  for (let i = 0; i < data.length; i += stride) { const v = data[i]; if (v === v) s.push(v); }
-  if (!s.length) return { level: NaN, sigma: NaN, step: 0 };
-  s.sort((a, b) => a - b);
-  const level = s[s.length >> 1];
-  const dev = s.map((v) => Math.abs(v - level)).sort((a, b) => a - b);
-  const sigma = 1.4826 * dev[dev.length >> 1];
+  const stride = Math.max(1, Math.floor(data.length / 20_000));
+  const s = new Float32Array(Math.ceil(data.length / stride));
+  let n = 0;
+  for (let i = 0; i < data.length; i += stride) { const v = data[i]; if (v === v) s[n++] = v; }
+  if (!n) return { level: NaN, sigma: NaN, step: 0 };
+  const v = s.subarray(0, n).sort();
+  const level = v[n >> 1];
   let step = Infinity;
-  for (let i = 1; i < s.length; i++) { const d = s[i] - s[i - 1]; if (d > 0 && d < step) step = d; }
-  return { level, sigma: sigma > 0 ? sigma : Math.sqrt(1 / 12) * (Number.isFinite(step) ? step : 1), step: Number.isFinite(step) ? step : 0 };
+  for (let i = 1; i < n; i++) { const d = v[i] - v[i - 1]; if (d > 0 && d < step) step = d; }
+  for (let i = 0; i < n; i++) v[i] = Math.abs(v[i] - level);
+  const sigma = 1.4826 * median(v, n);
+  const q = Number.isFinite(step) ? step : 0;
+  return { level, sigma: sigma > 0 ? sigma : Math.sqrt(1 / 12) * (q || 1), step: q };
 }

@@ -37,6 +37,11 @@ export interface PsfFit {
   readonly chi2Reduced: number;
   readonly iterations: number;
   readonly converged: boolean;
+  /**
+   * Pixel-integrated fits: the fitted profile's covariance plus the pixel box's (I/12), px^2, the
+   * recorded star's second moments (Gaussian: the covariance; Moffat: its half-maximum Gaussian's).
+   */
+  readonly recordedCov?: { readonly ixx: number; readonly iyy: number; readonly ixy: number };
   /** 1-sigma errors from the covariance matrix. */
   readonly err: {
     readonly x: number;
