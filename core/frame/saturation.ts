@@ -47,6 +47,9 @@ export function frameSaturation(frame: Frame): Saturation {
   if (mask && frame.qualitySource === 'DQ') return { level: frame.saturationLevel, source: 'DQ', mask };
   const ceiling = decoded === 'integer-ceiling' ? frame.saturationLevel : null;
   const p = findPlateau(frame.data, ceiling, frame.width);
+  // the ceiling reached by a pile of pixels is the clip itself (the band under it then holds the
+  // clipped stars' edges); a few pixels there (hot ones) leave the search below it to speak
+  if (ceiling !== null && p.atCeiling >= PLATEAU_MIN_PIXELS) return { level: ceiling, source: 'integer-ceiling', mask };
   if (p.plateau !== null) return { level: p.plateau, source: 'plateau', mask };
   return { level: ceiling, source: ceiling === null ? 'none' : 'integer-ceiling', mask };
 }
