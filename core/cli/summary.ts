@@ -1,5 +1,6 @@
 import type { Report, ZoneSummary } from '../report/types.ts';
 import { formatFindings } from '../diagnose/format.ts';
+import { saturationText } from '../frame/saturation.ts';
 
 const f = (v: number | null, digits = 2) => (v === null ? 'n/a' : v.toFixed(digits));
 
@@ -22,15 +23,7 @@ export function formatSummary(r: Report): string {
   ];
   const cards = o.source.keywords ? [o.source.keywords.focalLengthMm, o.source.keywords.fNumber, o.source.keywords.pixelSizeUm].filter((k) => k) : [];
   lines.push(`optics: ${opt.join(', ')}${plate ? `, ${o.plateScaleArcsecPerPx!.toFixed(3)}"/px` : ''}${cards.length ? ` (from ${cards.join(', ')})` : ''}`);
-  const sat = r.frame.saturation;
-  if (sat) {
-    const words: Record<string, string> = {
-      SATURATE: 'SATURATE keyword', DATAMAX: 'DATAMAX keyword', DQ: 'data-quality extension', 'white-level': 'raw white level',
-      'integer-ceiling': 'largest value of the encoding', plateau: 'clip found in the data', 'flat-cores': 'flat-topped star cores', none: 'nothing says',
-    };
-    const lvl = sat.level === null ? (sat.pixels ? `${sat.pixels} pixels marked` : 'unknown') : `${Number(sat.level.toPrecision(6))}`;
-    lines.push(`saturation: ${lvl} (${words[sat.source] ?? sat.source})`);
-  }
+  if (r.frame.saturation) lines.push(`saturation: ${saturationText(r.frame.saturation)}`);
   const d = r.detection;
   const flagged = Object.entries(d.flagged).map(([k, v]) => `${v} ${k}`).join(', ');
   lines.push(`stars: ${d.candidates} detected, ${d.measured} measured, ${d.usedForField} used for the field${flagged ? ` (set aside: ${flagged})` : ''}`);

@@ -30,6 +30,24 @@ export interface Saturation {
   readonly mask: Uint8Array | null;
 }
 
+/** What a person reads for each source (CLI, HTML and the desktop program say the same). */
+export const SATURATION_SOURCE_WORDS: Readonly<Record<SaturationSource, string>> = {
+  SATURATE: 'SATURATE keyword',
+  DATAMAX: 'DATAMAX keyword',
+  DQ: 'data-quality extension',
+  'white-level': 'raw white level',
+  'integer-ceiling': 'largest value of the encoding',
+  plateau: 'clip found in the data',
+  'flat-cores': 'flat-topped star cores',
+  none: 'nothing says',
+};
+
+/** The frame's saturation in words: "250 (clip found in the data)", "2531 pixels marked (data-quality extension)". */
+export function saturationText(s: { level: number | null; source: string; pixels?: number }): string {
+  const lvl = s.level === null ? (s.pixels ? `${s.pixels} pixels marked` : 'unknown') : `${Number(s.level.toPrecision(6))}`;
+  return `${lvl} (${SATURATION_SOURCE_WORDS[s.source as SaturationSource] ?? s.source})`;
+}
+
 /** A plateau needs at least this many pixels in its top band. */
 const PLATEAU_MIN_PIXELS = 5;
 
