@@ -293,9 +293,14 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   // size T came out 3 % high on average, against 0.3 % from the fit). The Gaussian fit, integrated
   // over the pixels, gives the covariance as recorded (box included, the adaptive moments' own
   // definition for a Gaussian star); the third moments and the errors then use that fixed weight
-  // (fixedMoments), on the stamp less the fit's background. So for every star fitted integrated,
-  // and for any whose adaptive moments failed.
-  if ((!momOk || pixelNodes > 1) && gOk) {
+  // (fixedMoments), on the stamp less the fit's background. So for every star of a frame whose PSF
+  // (the detection's estimate, sigmaGuess) is undersampled: one kind of moment per frame, as the
+  // field map compares stars across it. Not where the reported fit is a Moffat 25 % off the
+  // Gaussian's size (a blend or an odd profile, whose Gaussian covariance would misstate it); nor
+  // in a well-sampled frame, where failed adaptive moments mark such a star (on the demo frame, 8
+  // of 1447, whose Gaussian fits read 2-4x the size of their reported fit).
+  const fitSizeAgrees = fit === fitG || (fit !== null && gOk && Math.abs(Math.sqrt(((fitG as PsfFit).fwhmMajorPx * (fitG as PsfFit).fwhmMinorPx) / (fit.fwhmMajorPx * fit.fwhmMinorPx)) - 1) < 0.25);
+  if (FWHM_PER_SIGMA * sigmaGuess < UNDERSAMPLED_FWHM && gOk && fitSizeAgrees) {
     const f = fitG as PsfFit;
     let cov = f.recordedCov;
     if (!cov) {

@@ -407,7 +407,8 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
   }
 
   // undersampled: the moments from the Gaussian fit's covariance with that fixed weight (measure.ts)
-  if ((!momOk || nodes > 1) && gOk) {
+  const fitSizeAgrees = f === FG || (f !== null && gOk && Math.abs(Math.sqrt((FG.fMaj * FG.fMin) / (f!.fMaj * f!.fMin)) - 1) < 0.25);
+  if (FWHM_PER_SIGMA * sigmaGuess < UNDERSAMPLED_FWHM && gOk && fitSizeAgrees) {
     let cxx = FG.cxx, cyy = FG.cyy, cxy = FG.cxy;
     if (!FG.boxed) {
       const s1 = FG.fMaj / FWHM_PER_SIGMA, s2 = FG.fMin / FWHM_PER_SIGMA;
