@@ -324,8 +324,22 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   const maxR = Number.isFinite(fitFwhm) ? Math.min(stampR, Math.max(5, 4 * fitFwhm)) : stampR;
   // r50 guess: the Gaussian value 1.1774 sigma (optics.md §1.1) from the moments.
   const r50Guess = momOk ? 1.1774 * Math.sqrt(0.5 * (mom.ixx + mom.iyy)) : 1.1774 * sigmaGuess;
-  const hfd = halfFluxDiameterWithError(localSkySubtracted(stamp, w, h, hx, hy, maxR), variance, w, h, hx, hy, maxR, r50Guess);
-  const hfdErr = hfd.errPx;
+  const hfdStamp = localSkySubtracted(stamp, w, h, hx, hy, maxR);
+  const hfd = halfFluxDiameterWithError(hfdStamp, variance, w, h, hx, hy, maxR, r50Guess);
+  // The ring's sky level is uncertain by its sigma / sqrt(pixels); over the aperture that moves
+  // the total flux, which a faint star's half-flux radius follows (on the star-tracker frame: HFDs
+  // of 20-35 px for SNR 10-20 stars of FWHM 6-9 px, against 10 px for bright ones). The HFD read
+  // again with the sky raised by that much gives the term; an HFD uncertain by more than a quarter
+  // is no measurement (NaN), so it cannot reach a median.
+  let hfdPx = hfd.hfdPx;
+  let hfdErr = hfd.errPx;
+  if (RING_ERR > 0 && Number.isFinite(hfdPx)) {
+    if (HFD2.length < n) HFD2 = new Float32Array(Math.max(n, 2 * HFD2.length));
+    const again = halfFluxDiameterWithError(minus(hfdStamp, RING_ERR, HFD2.subarray(0, n)), variance, w, h, hx, hy, maxR, r50Guess);
+    const skyTerm = Math.abs(again.hfdPx - hfdPx);
+    hfdErr = Math.sqrt(hfdErr * hfdErr + skyTerm * skyTerm);
+    if (!(hfdErr <= MAX_HFD_REL_ERR * hfdPx)) { hfdPx = Number.NaN; hfdErr = Number.NaN; }
+  }
   const merr = momOk ? adaptiveMomentErrors(momStamp, variance, w, h, mom) : { x: NaN, y: NaN, e1: NaN, e2: NaN };
 
   const nan = Number.NaN;
@@ -347,7 +361,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       fwhmMinorPx: fit.fwhmMinorPx,
       ellipticity: 1 - fit.fwhmMinorPx / fit.fwhmMajorPx,
       thetaDeg: fit.thetaDeg,
-      hfdPx: hfd.hfdPx,
+      hfdPx,
       coma,
       flags,
       model: fit.model,
@@ -381,7 +395,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       fwhmMinorPx: FWHM_PER_SIGMA * el.b,
       ellipticity: 1 - el.b / el.a,
       thetaDeg: el.thetaDeg,
-      hfdPx: hfd.hfdPx,
+      hfdPx,
       coma,
       flags,
       model: 'moments',
@@ -390,7 +404,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       err: { x: merr.x, y: merr.y, fwhmPx: nan, ellipticity: nan, thetaDeg: nan, hfdPx: hfdErr, e1: merr.e1, e2: merr.e2 },
     };
   } else {
-    return emptyStar(flags, ox + px, oy + py, hfd.hfdPx, fitIt);
+    return emptyStar(flags, ox + px, oy + py, hfdPx, fitIt);
   }
   // the star holds `flags` itself, so a late flag lands in it
   if (!(snr >= (opts?.minSnr ?? 10))) addFlag(flags, 'low-snr');
@@ -480,13 +494,19 @@ function ringLevel(stamp: Float32Array, w: number, h: number, x: number, y: numb
 }
 
 let RDEV = new Float32Array(0);
+let HFD2 = new Float32Array(0); // the HFD's stamp with the sky raised by its uncertainty
+/** The last ring sky's standard error (sigma / sqrt(pixels averaged)); 0 when no ring was measured. */
+let RING_ERR = 0;
+/** An HFD less certain than this (relative, noise and the ring sky's uncertainty) is reported as NaN. */
+const MAX_HFD_REL_ERR = 0.25;
 /**
- * Mean of ring[0..n) within 3 sigma of its median (sigma = 1.4826 x the median absolute
+ * Mean of ring[0..n) within 5 sigma of its median (sigma = 1.4826 x the median absolute
  * deviation, or the rms about the median when most values are equal, as in quantised dark sky).
  * The curve of growth sums pixels, so the sky under it is the ring's mean, not its median: on
  * skewed sky (8-bit data floored at 0, a few counts per pixel) the median is 0 while the mean is
  * not, and the difference times a large aperture swamps a faint star. The clip keeps neighbours'
- * cores out, as the median did. `ring` is reordered.
+ * cores out, as the median did; at 5 sigma it keeps the sky's own skewed tail (the 1-count pixels
+ * of a floored sky of rms 0.3). Sets RING_ERR. `ring` is reordered.
  */
 function clippedRingMean(ring: Float32Array, n: number): number {
   const med = selectKth(ring, n, n >> 1);
@@ -495,9 +515,10 @@ function clippedRingMean(ring: Float32Array, n: number): number {
   for (let i = 0; i < n; i++) { const d = ring[i] - med; RDEV[i] = Math.abs(d); ss += d * d; }
   let sigma = 1.4826 * selectKth(RDEV, n, n >> 1);
   if (!(sigma > 0)) sigma = Math.sqrt(ss / n);
-  const lim = 3 * sigma;
+  const lim = 5 * sigma;
   let sum = 0, m = 0;
   for (let i = 0; i < n; i++) { const v = ring[i]; if (Math.abs(v - med) <= lim) { sum += v; m++; } }
+  RING_ERR = m > 0 ? sigma / Math.sqrt(m) : 0;
   return m > 0 ? sum / m : med;
 }
 
@@ -514,9 +535,10 @@ function minus(stamp: Float32Array, level: number, out: Float32Array): Float32Ar
  * annulus background for aperture photometry).
  */
 function localSkySubtracted(stamp: Float32Array, w: number, h: number, x: number, y: number, rMax: number): Float32Array {
+  RING_ERR = 0;
   if (!(rMax > 6)) return stamp;
   const ring = ringLevel(stamp, w, h, x, y, rMax);
-  if (ring.n < 12) return stamp;
+  if (ring.n < 12) { RING_ERR = 0; return stamp; }
   const sky = ring.level;
   if (!Number.isFinite(sky) || sky === 0) return stamp;
   if (HFDS.length < stamp.length) HFDS = new Float32Array(Math.max(stamp.length, 2 * HFDS.length));

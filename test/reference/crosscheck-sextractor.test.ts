@@ -108,7 +108,6 @@ const WIDER: Record<string, [number, string]> = {
   'tetra3 Alt40_Azi45:fwhm': [0.2, 'undersampled, 12 stars: 1.28 vs 1.49 measured (17 %); simulator: SExtractor FWHM_IMAGE runs 12 % low there (1.31 vs a true 1.49), skyloupe\'s pixel-integrated fit within 0.5 %'],
   'tetra3 Alt60_Azi135:hfd': [0.15, 'undersampled: both HFDs run high (simulator: +15 % skyloupe, +11 % SExtractor); measured 9 % apart'],
   'tetra3 Alt40_Azi45:hfd': [0.15, 'as above; measured 6 % apart'],
-  'openstartracker feb16_2:hfd': [0.12, 'bright stars agree within 1 %; faint 8-bit stars: skyloupe 10-30 % larger; median 6 % apart'],
 };
 
 const FRAMES: { label: string; file: string; sexFile?: string; readmeDetections?: number }[] = [

@@ -255,11 +255,14 @@ function clippedRingMean(nr: i32): f64 {
   for (let i = 0; i < nr; i++) { const d = <f64>unchecked(RING[i]) - med; unchecked(RDEV[i] = <f32>Math.abs(d)); ss += d * d; }
   let sigma = 1.4826 * <f64>selectKth(RDEV, nr, nr >> 1);
   if (!(sigma > 0)) sigma = Math.sqrt(ss / <f64>nr);
-  const lim = 3 * sigma;
+  const lim = 5 * sigma;
   let sum: f64 = 0, m = 0;
   for (let i = 0; i < nr; i++) { const v = <f64>unchecked(RING[i]); if (Math.abs(v - med) <= lim) { sum += v; m++; } }
+  RING_ERR = m > 0 ? sigma / Math.sqrt(<f64>m) : 0;
   return m > 0 ? sum / <f64>m : med;
 }
+let RING_ERR: f64 = 0; // measure.ts: the ring sky's standard error
+const MAX_HFD_REL_ERR: f64 = 0.25;
 
 /** Sky variance from the stamp border, (1.4826 MAD)^2 (measure.ts borderVariance). */
 function borderVariance(w: i32, h: i32): f64 {
@@ -435,6 +438,7 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
   const maxR = isFinite(fitFwhm) ? Math.min(stampR, Math.max(5, 4 * fitFwhm)) : stampR;
   const r50Guess = momOk ? 1.1774 * Math.sqrt(0.5 * (mxx + myy)) : 1.1774 * sigmaGuess;
   memory.copy(hfdStamp(), changetype<usize>(ST), <usize>n * 4);
+  RING_ERR = 0;
   if (maxR > 6) {
     const r0 = (maxR - 2) * (maxR - 2), r1 = maxR * maxR;
     const ya = <i32>Math.max(0, Math.ceil(hy - maxR)), yb = <i32>Math.min(<f64>(h - 1), Math.floor(hy + maxR));
@@ -448,6 +452,7 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
         if (d >= r0 && d <= r1 && v == v) { unchecked(RING[nr] = v); nr++; }
       }
     }
+    if (nr < 12) RING_ERR = 0;
     if (nr >= 12) {
       const sky = clippedRingMean(nr);
       if (isFinite(sky) && sky != 0) {
@@ -459,7 +464,18 @@ export function measure(w: i32, h: i32, skyVarIn: f64, gainIn: f64, sigmaGuessIn
   memory.copy(hfdVar(), changetype<usize>(VAR), <usize>n * 4);
   hfd(w, h, hx, hy, maxR, 2, 0, r50Guess > 0 ? r50Guess : 0);
   const ho = hfdOut();
-  unchecked(OUT[18] = load<f64>(ho)); unchecked(OUT[19] = load<f64>(ho + 16));
+  let hfdPx = load<f64>(ho), hfdErr = load<f64>(ho + 16);
+  // measure.ts: the ring sky's uncertainty, and no HFD less certain than a quarter
+  if (RING_ERR > 0 && isFinite(hfdPx)) {
+    const hs = hfdStamp();
+    const re = RING_ERR;
+    for (let i = 0; i < n; i++) store<f32>(hs + <usize>i * 4, <f32>(<f64>load<f32>(hs + <usize>i * 4) - re));
+    hfd(w, h, hx, hy, maxR, 2, 0, r50Guess > 0 ? r50Guess : 0);
+    const skyTerm = Math.abs(load<f64>(ho) - hfdPx);
+    hfdErr = Math.sqrt(hfdErr * hfdErr + skyTerm * skyTerm);
+    if (!(hfdErr <= MAX_HFD_REL_ERR * hfdPx)) { hfdPx = NaN; hfdErr = NaN; }
+  }
+  unchecked(OUT[18] = hfdPx); unchecked(OUT[19] = hfdErr);
 
   unchecked(OUT[20] = momOk ? 1 : 0);
   if (momOk) {
