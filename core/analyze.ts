@@ -3,8 +3,10 @@ import { resolveOptics, type UserOptics } from './frame/optics.ts';
 import { toMeasurePlane } from './frame/plane.ts';
 import { estimateSkyInBands, subtractSkyInBands } from './image/background.ts';
 import { convolveInBands, filteredNoiseFactor } from './image/convolve.ts';
-import { detectStars, estimatePsfSigma, localMaximaInBands, matchedFilterTaps, PSF_PEAK_SIGMA, DEFAULT_DETECT_SIGMA } from './stars/detect.ts';
+import { detectStars, estimatePsfSigma, flagSaturatedAt, localMaximaInBands, matchedFilterTaps, PSF_PEAK_SIGMA, DEFAULT_DETECT_SIGMA } from './stars/detect.ts';
+import { frameSaturation, type Saturation, type SaturationSource } from './frame/saturation.ts';
 import { packStamps } from './stars/stamps.ts';
+import { implausibleFlags } from './stars/plausible.ts';
 import { measureAll } from './stars/measure-batch.ts';
 import { shareWith } from './parallel/bands.ts';
 import type { WorkerPool } from './parallel/pool.ts';
@@ -44,6 +46,11 @@ export interface Analysis {
     readonly dataRegion: DataRegion;
     /** The stretch a round star takes from the pixels' shape on the sky, per the header WCS; null without one. */
     readonly pixelShape: PixelShape | null;
+    /**
+     * The level clipped pixels reach, in the frame's units, and which source served
+     * (frame/saturation.ts); `pixels`: how many a DQ extension marks saturated.
+     */
+    readonly saturation: { readonly level: number | null; readonly source: SaturationSource; readonly pixels?: number };
   };
   readonly optics: Optics;
   /** The measured plane: full resolution, or 2x2 superpixels for mosaics (coordinates in stars[] are full resolution). */
@@ -82,7 +89,9 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
   };
   const progress = opts.onProgress ?? (() => {});
   const cfa = opts.cfa !== undefined ? opts.cfa : frame.cfa;
-  const plane = toMeasurePlane(frame, { cfa });
+  // the saturation level from the header, a DQ extension, the white level, the ceiling or a clip in the data
+  let saturation: Saturation = frameSaturation(frame);
+  const plane = toMeasurePlane({ ...frame, saturationLevel: saturation.level }, { cfa });
   const optics = resolveOptics(frame.hints, opts.user ?? {}, plane.scale);
   checkFrameHasSignal(plane.data);
   // workers start now, so their start-up overlaps the serial steps
@@ -101,7 +110,8 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     checkAbort(opts.signal);
     progress('detect', 0);
     const bright = await localMaximaInBands(pool, residual, plane.width, plane.height, sky, 1, PSF_PEAK_SIGMA);
-    const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky, bright);
+    const satTest = { level: plane.saturationLevel, mask: plane.saturatedMask ?? null };
+    const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky, bright, { ...satTest, raw: data });
     lap('psf-size');
     const taps = matchedFilterTaps(psfSigmaPx);
     const filtered = await convolveInBands(pool, residual, plane.width, plane.height, taps);
@@ -111,10 +121,12 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     const det = detectStars(residual, data, missing, plane.width, plane.height, sky, {
       threshold,
       saturationLevel: plane.saturationLevel,
+      saturatedMask: satTest.mask,
       psfSigmaPx,
       filtered,
       peaks,
     });
+    saturation = fromFlatCores(saturation, det, data, plane);
     lap('detect');
     checkAbort(opts.signal);
     if (det.candidates.length === 0) {
@@ -145,7 +157,7 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
       onProgress: (f) => progress('measure', f),
     });
     lap('measure');
-    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData });
+    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData }, saturation);
   } finally {
     if (ownPool) void pool.close();
   }
@@ -159,15 +171,18 @@ function finish(
   subset: Analysis['detection']['subset'], measured: Star[],
   timings: Record<string, number>, lap: (n: string) => void, progress: (stage: string, f: number) => void,
   where: { region: DataRegion; outsideData: number },
+  saturation: Saturation,
 ): Analysis {
-  const stars = finishStars(measured, plane.scale, plane.offset);
+  const stars = finishStars(measured, plane.scale, plane.offset, plane.width, plane.height, 2.354820045 * det.psfSigmaPx);
   const flagged: Partial<Record<StarFlag, number>> = {};
   for (const s of stars) for (const f of s.flags) flagged[f] = (flagged[f] ?? 0) + 1;
   lap('finish');
   progress('done', 1);
   return {
     frame: {
-      width: frame.width, height: frame.height, format: frame.format, displayTopRow: frame.displayTopRow, cfa, saturationLevel: frame.saturationLevel,
+      width: frame.width, height: frame.height, format: frame.format, displayTopRow: frame.displayTopRow, cfa,
+      saturationLevel: saturation.level,
+      saturation: { level: saturation.level, source: saturation.source, ...(frame.qualityCounts?.saturated ? { pixels: frame.qualityCounts.saturated } : {}) },
       dataRegion: scaleRegion(where.region, plane.scale, plane.offset), pixelShape: pixelShapeFromHeader(frame.meta),
     },
     optics,
@@ -177,6 +192,29 @@ function finish(
     stars,
     timings,
   };
+}
+
+/** Stars found clipped by their flat cores at least this often make the frame's level (when nothing else gave one that the data reach). */
+const FLAT_CORES_FOR_LEVEL = 3;
+
+/**
+ * The last source in the order (frame/saturation.ts): when no keyword, DQ extension, white level
+ * or clip in the data gave a level (float data, or an integer ceiling nothing reaches), and at
+ * least 3 stars are flat-topped, their median top less 2 % (the spread of a soft full-well
+ * plateau, [CP]) is the frame's level, in the frame's units; stars reaching it are flagged too.
+ */
+function fromFlatCores(
+  sat: Saturation, det: { candidates: import('./stars/types.ts').Candidate[]; flatCoreLevels: number[]; psfSigmaPx: number },
+  data: Float32Array, plane: { width: number; height: number; scale: number },
+): Saturation {
+  if (sat.source !== 'none' && sat.source !== 'integer-ceiling') return sat;
+  const tops = det.flatCoreLevels;
+  if (tops.length < FLAT_CORES_FOR_LEVEL) return sat;
+  const planeLevel = 0.98 * median(Float64Array.from(tops), tops.length);
+  if (sat.level !== null && planeLevel >= 0.995 * sat.level * plane.scale * plane.scale) return sat;
+  flagSaturatedAt(det.candidates, data, plane.width, plane.height, det.psfSigmaPx, { level: planeLevel, mask: null });
+  // a superpixel sums four pixels: the frame's own level is a quarter of the plane's
+  return { level: plane.scale === 2 ? planeLevel / 4 : planeLevel, source: 'flat-cores', mask: sat.mask };
 }
 
 function fmt(v: number): string {
@@ -207,15 +245,14 @@ function checkFrameHasSignal(data: Float32Array): void {
 
 /**
  * Map plane coordinates to the full-resolution frame, and add the flags that need the
- * whole population: much smaller than the typical star (cosmic ray) or too faint.
+ * whole population: no star of this frame by its size or concentration (a cosmic ray, a
+ * noise blob: stars/plausible.ts), or too faint.
  */
-function finishStars(stars: Star[], scale: number, offset: number): Star[] {
-  const good = stars.filter((s) => s.flags.length === 0 && Number.isFinite(s.fwhmPx));
-  const sizes = Float64Array.from(good.map((s) => s.fwhmPx));
-  const typical = sizes.length ? median(sizes, sizes.length) : NaN;
-  return stars.map((s) => {
+function finishStars(stars: Star[], scale: number, offset: number, width: number, height: number, psfFwhmPx: number): Star[] {
+  const extra = implausibleFlags(stars, width, height, psfFwhmPx);
+  return stars.map((s, i) => {
     const flags = [...s.flags];
-    if (Number.isFinite(typical) && s.fwhmPx < 0.5 * typical && !flags.includes('hot-pixel') && !flags.includes('cosmic-ray')) flags.push('cosmic-ray');
+    for (const f of extra[i]) if (!flags.includes(f)) flags.push(f);
     if (!(s.snr >= MIN_FIELD_SNR) && !flags.includes('low-snr')) flags.push('low-snr');
     if (scale === 1 && offset === 0 && flags.length === s.flags.length) return s;
     const k = scale;

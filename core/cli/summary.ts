@@ -1,5 +1,6 @@
 import type { Report, ZoneSummary } from '../report/types.ts';
 import { formatFindings } from '../diagnose/format.ts';
+import { saturationText } from '../frame/saturation.ts';
 
 const f = (v: number | null, digits = 2) => (v === null ? 'n/a' : v.toFixed(digits));
 
@@ -20,7 +21,9 @@ export function formatSummary(r: Report): string {
     o.fNumber !== null ? `f/${o.fNumber}` : 'f-number unknown',
     o.pixelSizeUm !== null ? `${o.pixelSizeUm} um pixels` : 'pixel size unknown',
   ];
-  lines.push(`optics: ${opt.join(', ')}${plate ? `, ${o.plateScaleArcsecPerPx!.toFixed(3)}"/px` : ''}`);
+  const cards = o.source.keywords ? [o.source.keywords.focalLengthMm, o.source.keywords.fNumber, o.source.keywords.pixelSizeUm].filter((k) => k) : [];
+  lines.push(`optics: ${opt.join(', ')}${plate ? `, ${o.plateScaleArcsecPerPx!.toFixed(3)}"/px` : ''}${cards.length ? ` (from ${cards.join(', ')})` : ''}`);
+  if (r.frame.saturation) lines.push(`saturation: ${saturationText(r.frame.saturation)}`);
   const d = r.detection;
   const flagged = Object.entries(d.flagged).map(([k, v]) => `${v} ${k}`).join(', ');
   lines.push(`stars: ${d.candidates} detected, ${d.measured} measured, ${d.usedForField} used for the field${flagged ? ` (set aside: ${flagged})` : ''}`);

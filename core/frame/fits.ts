@@ -256,7 +256,7 @@ const STORED_RANGE: Record<number, [number, number]> = {
 const META_KEYS = [
   'OBJECT', 'TELESCOP', 'INSTRUME', 'DATE-OBS', 'EXPTIME', 'EXPOSURE', 'FILTER', 'IMAGETYP',
   'GAIN', 'OFFSET', 'EGAIN', 'ISOSPEED', 'CCD-TEMP', 'SET-TEMP', 'XBINNING', 'YBINNING',
-  'XPIXSZ', 'YPIXSZ', 'PIXSIZE1', 'PIXSIZE2', 'FOCALLEN', 'FOCRATIO', 'APTDIA', 'FOCPOS', 'FOCUSPOS',
+  'XPIXSZ', 'YPIXSZ', 'PIXSIZE1', 'PIXSIZE2', 'FOCALLEN', 'FOCRATIO', 'FNUMBER', 'APTDIA', 'FOCPOS', 'FOCUSPOS',
   'BAYERPAT', 'XBAYROFF', 'YBAYROFF', 'ROWORDER', 'SATURATE', 'DATAMAX', 'SWCREATE', 'CREATOR',
   'BITPIX', 'BZERO', 'BSCALE', 'BLANK', 'NAXIS3',
 ];
@@ -274,22 +274,30 @@ function positive(v: FitsCard['value'] | undefined): number | undefined {
  * FOCALLEN (mm), APTDIA (mm), FOCRATIO, XPIXSZ/YPIXSZ (µm), XBINNING/YBINNING.
  * XPIXSZ is the pitch of the stored pixels, binning included (the keyword's documented
  * meaning is the pixel width after binning [CP, from memory]). PIXSIZE1 (µm) is a fallback
- * some programs write [CP, from memory].
+ * some programs write [CP, from memory]. The f-number: FOCRATIO, else FNUMBER (written by
+ * some capture programs [CP, from memory]); without either, FOCALLEN / APTDIA in
+ * resolveOptics. `keywords` records which card served each value.
  */
 export function fitsOpticsHints(keys: FitsKeys): OpticsHints | null {
   const h: OpticsHints = { from: 'header' };
-  const fl = positive(keys.get('FOCALLEN'));
-  const px = positive(keys.get('XPIXSZ')) ?? positive(keys.get('PIXSIZE1'));
-  const fn = positive(keys.get('FOCRATIO'));
-  const ap = positive(keys.get('APTDIA'));
+  const kw: NonNullable<OpticsHints['keywords']> = {};
+  const first = (names: string[]): [number, string] | undefined => {
+    for (const k of names) { const v = positive(keys.get(k)); if (v !== undefined) return [v, k]; }
+    return undefined;
+  };
+  const fl = first(['FOCALLEN']);
+  const px = first(['XPIXSZ', 'PIXSIZE1']);
+  const fn = first(['FOCRATIO', 'FNUMBER']);
+  const ap = first(['APTDIA']);
   const bin = positive(keys.get('XBINNING'));
   const cam = keys.get('INSTRUME');
-  if (fl !== undefined) h.focalLengthMm = fl;
-  if (px !== undefined) h.pixelSizeUm = px;
-  if (fn !== undefined) h.fNumber = fn;
-  if (ap !== undefined) h.apertureMm = ap;
+  if (fl !== undefined) { h.focalLengthMm = fl[0]; kw.focalLengthMm = fl[1]; }
+  if (px !== undefined) { h.pixelSizeUm = px[0]; kw.pixelSizeUm = px[1]; }
+  if (fn !== undefined) { h.fNumber = fn[0]; kw.fNumber = fn[1]; }
+  if (ap !== undefined) { h.apertureMm = ap[0]; kw.apertureMm = ap[1]; }
   if (bin !== undefined && Number.isInteger(bin)) h.binning = bin;
   if (typeof cam === 'string' && cam.trim() !== '') h.camera = cam.trim();
+  if (Object.keys(kw).length) h.keywords = kw;
   return Object.keys(h).length > 1 ? h : null;
 }
 
@@ -340,11 +348,13 @@ export function decodeFits(bytes: Uint8Array): Frame {
   const blank = bitpix > 0 && typeof bv === 'number' && Number.isInteger(bv) ? bv : null;
 
   let saturationLevel: number | null = null;
+  let saturationSource: Frame['saturationSource'];
   if (bitpix > 0) {
     let [lo, hi] = STORED_RANGE[bitpix];
     if (blank === hi) hi -= 1;
     if (blank === lo) lo += 1;
     saturationLevel = Math.fround(bscale > 0 ? bzero + bscale * hi : bzero + bscale * lo);
+    saturationSource = 'integer-ceiling';
   }
 
   const n = width * height;
@@ -397,6 +407,14 @@ export function decodeFits(bytes: Uint8Array): Frame {
     if (image.axes.length >= 3) meta.NAXIS3 = image.axes[2]; else delete meta.NAXIS3;
     meta.ZCMPTYPE = image.tiled.compression;
   }
+  // SATURATE [CP: the level at which the detector saturates, in data units, written by capture
+  // programs and pipelines; Source Extractor's SATUR_KEY default], then DATAMAX (FITS 4.0
+  // §4.4.2.5: the largest valid physical value): a level the file states wins over the ceiling.
+  for (const k of ['SATURATE', 'DATAMAX'] as const) {
+    const v = merged.get(k);
+    if (typeof v === 'number' && Number.isFinite(v) && v > 0) { saturationLevel = Math.fround(v); saturationSource = k; break; }
+  }
+  const quality = extra === 1 && !image.tiled ? readQuality(bytes, image, primary, width, height, data) : null;
   const roworder = merged.get('ROWORDER');
   // ROWORDER [CP: ASCOM/capture programs]: 'TOP-DOWN' = first stored row shown at the top;
   // otherwise the usual FITS display convention, first pixel at the lower left [CP, from memory].
@@ -408,9 +426,67 @@ export function decodeFits(bytes: Uint8Array): Frame {
     data,
     format: image.tiled ? 'fits-tiled' : 'fits',
     saturationLevel,
+    ...(saturationSource ? { saturationSource } : {}),
+    ...(quality ? { saturatedMask: quality.saturated, qualitySource: quality.source, qualityCounts: quality.counts } : {}),
     cfa: extra === 1 ? cfaFromKeys(merged) : null,
     displayTopRow,
     hints: fitsOpticsHints(merged),
     meta,
   };
+}
+
+/**
+ * Data-quality bits of known missions. HST (ACS, and the other instruments' calibrated files
+ * share these bits [from memory beyond ACS]): 256 full-well or A-to-D saturated, 2048 A-to-D
+ * saturated; unusable: 1 lost in compression, 2 replaced by fill, 4 bad detector pixel, 8 masked
+ * by an aperture feature (the HRC occulting finger), 128 bad column (the ACS DQ table as
+ * published by STScI in its stginga viewer's DQ definitions). JWST: bit 1 (value 2) SATURATED,
+ * bit 0 (value 1) DO_NOT_USE (the jwst pipeline's data-quality flag table). Other DQ or MASK
+ * images: any non-zero value marks a pixel not to use [CP].
+ */
+const DQ_BITS: Record<string, { saturated: number; unusable: number }> = {
+  HST: { saturated: 256 | 2048, unusable: 1 | 2 | 4 | 8 | 128 },
+  JWST: { saturated: 2, unusable: 1 },
+};
+
+/**
+ * The quality image that goes with the science image: the first IMAGE extension after it named
+ * DQ (or MASK / BPM) with the same size and EXTVER, integer-valued. Unusable pixels become NaN
+ * in `data` (the frame's own decoded copy; the file is never touched); saturated pixels are
+ * returned as a mask. Null when there is none (or it is malformed: the image stays readable).
+ */
+function readQuality(bytes: Uint8Array, image: Hdu, primary: Hdu, width: number, height: number, data: Float32Array):
+  { saturated: Uint8Array | null; source: 'DQ' | 'mask'; counts: { saturated: number; unusable: number } } | null {
+  const extver = image.keys.get('EXTVER') ?? 1;
+  let h = image;
+  try {
+    for (let index = image.index + 1; index < 1000; index++) {
+      const next = h.dataOffset + Math.ceil(h.dataBytes / BLOCK) * BLOCK;
+      if (!Number.isFinite(next) || next + BLOCK > bytes.length || !startsWith(bytes, next, 'XTENSION=')) return null;
+      h = readHdu(bytes, next, index);
+      const name = String(h.keys.get('EXTNAME') ?? '').trim().toUpperCase();
+      if (h.kind !== 'IMAGE' || !['DQ', 'MASK', 'BPM'].includes(name)) continue;
+      if ((h.keys.get('EXTVER') ?? 1) !== extver || h.bitpix <= 0 || h.axes.length !== 2 || h.axes[0] !== width || h.axes[1] !== height) continue;
+      if (h.dataOffset + h.dataBytes > bytes.length) return null;
+      const n = width * height;
+      const q = new Float32Array(n);
+      decodeSamples(bytes, h.dataOffset, n, h.bitpix, numKey(h.keys, 'BZERO', 0), numKey(h.keys, 'BSCALE', 1), null, q);
+      const telescope = String(primary.keys.get('TELESCOP') ?? image.keys.get('TELESCOP') ?? '').trim().toUpperCase();
+      const bits = name === 'DQ' ? DQ_BITS[telescope] : undefined;
+      const sat = bits ? new Uint8Array(n) : null;
+      let nSat = 0, nBad = 0;
+      for (let i = 0; i < n; i++) {
+        const v = q[i];
+        if (v === 0) continue;
+        if (!bits) { data[i] = NaN; nBad++; continue; }
+        const b = v | 0;
+        if (b & bits.unusable) { data[i] = NaN; nBad++; }
+        if (b & bits.saturated) { sat![i] = 1; nSat++; }
+      }
+      return { saturated: nSat ? sat : null, source: name === 'DQ' ? 'DQ' : 'mask', counts: { saturated: nSat, unusable: nBad } };
+    }
+  } catch {
+    return null; // a broken extension after the image does not make the image unreadable
+  }
+  return null;
 }

@@ -24,7 +24,8 @@ function fromHint(v: number | undefined): number | undefined {
 
 /**
  * User values win over the file's; a value nobody gave stays null. The f-number falls back to
- * focal length / aperture diameter (source 'derived'). `pixelSizeUm` in the result is the pitch
+ * focal length / aperture diameter (source 'derived'). `source.keywords` names the card or tag
+ * that served each file value (e.g. fNumber 'FNUMBER', or 'FOCALLEN/APTDIA' for the ratio). `pixelSizeUm` in the result is the pitch
  * of the measured plane: the stated pitch of the stored pixels (binning already included, see
  * fits.ts) times `planeScale` (2 for CFA superpixels).
  */
@@ -41,10 +42,15 @@ export function resolveOptics(hints: OpticsHints | null, user: UserOptics, plane
   const [focalLengthMm, fSrc] = pick(uf, fromHint(hints?.focalLengthMm));
   const [statedPx, pSrc] = pick(up, fromHint(hints?.pixelSizeUm));
   let [fNumber, nSrc] = pick(un, fromHint(hints?.fNumber));
+  const kw = hints?.keywords ?? {};
+  const card = (src: OpticsSource, k: string | undefined): string | null => (src === 'header' || src === 'exif') && k ? k : null;
+  let nCard = card(nSrc, kw.fNumber);
   const aperture = fromHint(hints?.apertureMm);
   if (fNumber === null && focalLengthMm !== null && aperture !== undefined) {
     fNumber = focalLengthMm / aperture; // N = f / D
     nSrc = 'derived';
+    // which cards the ratio used: the focal length may be the user's
+    nCard = `${fSrc === 'user' ? 'user focal length' : kw.focalLengthMm ?? 'focal length'}/${kw.apertureMm ?? 'aperture'}`;
   }
   const pixelSizeUm = statedPx === null ? null : statedPx * planeScale;
   const plate = pixelSizeUm !== null && focalLengthMm !== null ? plateScaleArcsecPerPx(pixelSizeUm, focalLengthMm) : null;
@@ -58,6 +64,7 @@ export function resolveOptics(hints: OpticsHints | null, user: UserOptics, plane
       pixelSizeUm: pSrc,
       fNumber: nSrc,
       plateScaleArcsecPerPx: plate === null ? null : 'derived',
+      keywords: { focalLengthMm: card(fSrc, kw.focalLengthMm), pixelSizeUm: card(pSrc, kw.pixelSizeUm), fNumber: nCard },
     },
   };
 }

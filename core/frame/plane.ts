@@ -8,13 +8,15 @@ import type { CfaPattern, Frame, MeasurePlane } from './types.ts';
  * interpolation smears the star. Superpixel (xs, ys) covers full-resolution columns 2xs, 2xs+1,
  * so its centre is x = 2xs + 0.5: scale 2, offset 0.5. An odd last row/column is dropped.
  * Saturation: 4x the per-pixel level, and a block with any single pixel at or above the per-pixel
- * level is set to 4x, so a star clipped in one colour is still flagged.
+ * level is set to 4x, so a star clipped in one colour is still flagged; a superpixel with any
+ * pixel in the frame's saturated mask (DQ extension) is in the plane's mask.
  * Non-CFA: the frame's own data (no copy), scale 1, offset 0.
  */
 export function toMeasurePlane(frame: Frame, opts?: { cfa?: CfaPattern | null }): MeasurePlane {
   const cfa = opts && opts.cfa !== undefined ? opts.cfa : frame.cfa;
   const { width, height, data } = frame;
-  if (!cfa) return { width, height, data, scale: 1, offset: 0, saturationLevel: frame.saturationLevel };
+  const mask = frame.saturatedMask ?? null;
+  if (!cfa) return { width, height, data, scale: 1, offset: 0, saturationLevel: frame.saturationLevel, saturatedMask: mask };
   const w2 = Math.floor(width / 2);
   const h2 = Math.floor(height / 2);
   if (w2 < 1 || h2 < 1) throw unreadable(`frame of ${width} x ${height} pixels is too small for 2x2 colour-filter superpixels`);
@@ -32,5 +34,13 @@ export function toMeasurePlane(frame: Frame, opts?: { cfa?: CfaPattern | null })
       out[o + xs] = a >= s || b >= s || c >= s || d >= s ? s4 : a + b + c + d;
     }
   }
-  return { width: w2, height: h2, data: out, scale: 2, offset: 0.5, saturationLevel: sat === null ? null : 4 * sat };
+  let planeMask: Uint8Array | null = null;
+  if (mask) {
+    planeMask = new Uint8Array(w2 * h2);
+    for (let ys = 0; ys < h2; ys++) for (let xs = 0; xs < w2; xs++) {
+      const k = 2 * ys * width + 2 * xs;
+      if (mask[k] | mask[k + 1] | mask[k + width] | mask[k + width + 1]) planeMask[ys * w2 + xs] = 1;
+    }
+  }
+  return { width: w2, height: h2, data: out, scale: 2, offset: 0.5, saturationLevel: sat === null ? null : 4 * sat, saturatedMask: planeMask };
 }

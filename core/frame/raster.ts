@@ -125,10 +125,12 @@ export async function decodeRaster(bytes: Uint8Array): Promise<Frame> {
     if (exif.dateTimeOriginal) m.dateTimeOriginal = exif.dateTimeOriginal;
     if (exif.orientation !== undefined) m.orientation = exif.orientation;
     const h: OpticsHints = { from: 'exif' };
-    if (exif.focalLengthMm !== undefined && exif.focalLengthMm > 0) h.focalLengthMm = exif.focalLengthMm;
-    if (exif.fNumber !== undefined && exif.fNumber > 0) h.fNumber = exif.fNumber;
+    const kw: NonNullable<OpticsHints['keywords']> = {};
+    if (exif.focalLengthMm !== undefined && exif.focalLengthMm > 0) { h.focalLengthMm = exif.focalLengthMm; kw.focalLengthMm = 'FocalLength'; }
+    if (exif.fNumber !== undefined && exif.fNumber > 0) { h.fNumber = exif.fNumber; kw.fNumber = 'FNumber'; }
     const px = exifPixelSizeUm(exif, width);
-    if (px !== undefined) h.pixelSizeUm = px;
+    if (px !== undefined) { h.pixelSizeUm = px; kw.pixelSizeUm = 'FocalPlaneXResolution'; }
+    if (Object.keys(kw).length) h.keywords = kw;
     if (camera) h.camera = camera;
     if (Object.keys(h).length > 1) hints = h;
   }

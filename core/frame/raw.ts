@@ -164,9 +164,12 @@ export async function decodeRaw(bytes: Uint8Array): Promise<Frame> {
   const camera = [meta.camera_make, meta.camera_model].filter((s) => s && s.trim()).join(' ').trim();
   const ex = exifPitchUm(bytes, width);
   const hints: OpticsHints = { from: 'exif' };
-  if (meta.focal_len > 0) hints.focalLengthMm = meta.focal_len;
-  if (meta.aperture > 0) hints.fNumber = Math.round(meta.aperture * 100) / 100; // stored as float32 in LibRaw
-  if (ex.pitch !== undefined) hints.pixelSizeUm = ex.pitch * binning;
+  const kw: NonNullable<OpticsHints['keywords']> = {};
+  // LibRaw takes these from the EXIF tags FocalLength and FNumber
+  if (meta.focal_len > 0) { hints.focalLengthMm = meta.focal_len; kw.focalLengthMm = 'FocalLength'; }
+  if (meta.aperture > 0) { hints.fNumber = Math.round(meta.aperture * 100) / 100; kw.fNumber = 'FNumber'; } // stored as float32 in LibRaw
+  if (ex.pitch !== undefined) { hints.pixelSizeUm = ex.pitch * binning; kw.pixelSizeUm = 'FocalPlaneXResolution'; }
+  if (Object.keys(kw).length) hints.keywords = kw;
   if (binning > 1) hints.binning = binning;
   if (camera) hints.camera = camera;
 
@@ -192,6 +195,7 @@ export async function decodeRaw(bytes: Uint8Array): Promise<Frame> {
     data,
     format: 'raw',
     saturationLevel: pattern === 'xtrans' ? 9 * sat : sat,
+    saturationSource: 'white-level',
     cfa,
     displayTopRow: 'first',
     hints: Object.keys(hints).length > 1 ? hints : null,

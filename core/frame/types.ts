@@ -13,6 +13,16 @@ export interface Optics {
     readonly pixelSizeUm: OpticsSource;
     readonly fNumber: OpticsSource;
     readonly plateScaleArcsecPerPx: OpticsSource;
+    /**
+     * Which header card or EXIF tag served each value read from the file ('FOCRATIO',
+     * 'FNUMBER', 'FOCALLEN/APTDIA', 'XPIXSZ', 'FNumber', ...); null for a user value or an
+     * unknown one. (Optional so that optics built elsewhere, e.g. in tests, need not state it.)
+     */
+    readonly keywords?: {
+      readonly focalLengthMm: string | null;
+      readonly pixelSizeUm: string | null;
+      readonly fNumber: string | null;
+    };
   };
 }
 
@@ -26,6 +36,8 @@ export interface OpticsHints {
   binning?: number;
   /** What the hints were read from. */
   from: 'header' | 'exif';
+  /** The header card or EXIF tag each value came from (FOCALLEN, FOCRATIO, FNUMBER, APTDIA, XPIXSZ, ...). */
+  keywords?: { focalLengthMm?: string; pixelSizeUm?: string; fNumber?: string; apertureMm?: string };
   camera?: string;
 }
 
@@ -43,8 +55,20 @@ export interface Frame {
   readonly height: number;
   readonly data: Float32Array;
   readonly format: FrameFormat;
-  /** Highest value the encoding can hold (after BZERO/BSCALE), used to flag saturation; null if unbounded (float data). */
+  /**
+   * Level at which pixels are clipped: the SATURATE or DATAMAX keyword, the raw white level, or
+   * the highest value the encoding can hold (after BZERO/BSCALE); null if unbounded (float data)
+   * and nothing says. The data may still show a lower clip (core/frame/saturation.ts).
+   */
   readonly saturationLevel: number | null;
+  /** What saturationLevel came from (absent: the integer ceiling, or none when the level is null). */
+  readonly saturationSource?: 'SATURATE' | 'DATAMAX' | 'white-level' | 'integer-ceiling';
+  /** Pixels a data-quality or mask extension marks saturated (1 = saturated), storage order; absent if none. */
+  readonly saturatedMask?: Uint8Array | null;
+  /** Which extension gave the mask and set unusable pixels to NaN: a DQ or MASK image; absent if none. */
+  readonly qualitySource?: 'DQ' | 'mask';
+  /** How many pixels the quality extension marked saturated and unusable (set to NaN). */
+  readonly qualityCounts?: { readonly saturated: number; readonly unusable: number };
   /** Colour-filter-array layout if the stored pixels are a raw mosaic. */
   readonly cfa: CfaPattern | null;
   /** Which stored row is shown at the top of the display. */
@@ -66,4 +90,6 @@ export interface MeasurePlane {
   readonly scale: number;
   readonly offset: number;
   readonly saturationLevel: number | null;
+  /** Plane pixels marked saturated by a DQ or mask extension (any of a superpixel's four); null if none. */
+  readonly saturatedMask?: Uint8Array | null;
 }

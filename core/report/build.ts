@@ -87,6 +87,7 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
       },
       dataRegion: a.frame.dataRegion,
       pixelShape: a.frame.pixelShape,
+      saturation: { ...a.frame.saturation },
     },
     conventions: {
       coordinates: '0-based array coordinates: x = column, y = row in storage order, pixel centres at integers',

@@ -46,6 +46,12 @@ export interface Report {
     dataRegion: DataRegion;
     /** The stretch round stars take from the pixels' shape on the sky (header WCS); null without a WCS. */
     pixelShape: PixelShape | null;
+    /**
+     * Where the frame clips (DESIGN.md, turn 2): `level` in the frame's units (null when only a
+     * per-pixel mask or nothing says), `source`: SATURATE | DATAMAX | DQ | white-level |
+     * integer-ceiling | plateau | flat-cores | none; `pixels`: saturated pixels a DQ extension marks.
+     */
+    saturation?: { level: number | null; source: string; pixels?: number };
   };
   conventions: { coordinates: string; angles: string; fwhm: string };
   sky: { level: number; sigma: number; boxPx: number };

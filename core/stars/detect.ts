@@ -1,6 +1,7 @@
 import type { Candidate, StarFlag } from './types.ts';
 import { convolveSeparable, filteredNoiseFactor, gaussianTaps } from '../image/convolve.ts';
-import { skyNoiseAt, type SkyModel } from '../image/background.ts';
+import { skyLevelAt, skyNoiseAt, type SkyModel } from '../image/background.ts';
+import { flatTop } from './clipped.ts';
 import { median } from '../image/stats.ts';
 import { defineKernel, type KernelRunner } from '../parallel/kernel.ts';
 import { inBands } from '../parallel/bands.ts';
@@ -15,6 +16,8 @@ export interface DetectOptions {
   psfSigmaPx?: number;
   /** Highest valid raw value; pixels at or above 99.5 % of it mark a star saturated. */
   saturationLevel?: number | null;
+  /** Pixels marked saturated one by one (a DQ extension); any in a star's core marks it saturated. */
+  saturatedMask?: Uint8Array | null;
   /** Measurement stamp radius (px); stars closer than this to a border are flagged 'edge'. */
   stampRadius?: number;
   /** The residual already convolved with matchedFilterTaps(psfSigmaPx) (e.g. in parallel). */
@@ -39,6 +42,8 @@ export interface Detection {
   readonly stampRadius: number;
   /** Local maxima merged into a brighter neighbour (same object). */
   readonly merged: number;
+  /** Raw top values of the stars found flat-topped (clipped) from the data alone (clipped.ts). */
+  readonly flatCoreLevels: number[];
 }
 
 /**
@@ -66,9 +71,28 @@ export function detectStars(
   const nf = filteredNoiseFactor(taps);
   const peaks = unpackPeaks(opts.peaks ?? localMaximaRows(filtered, width, height, sky, nf, threshold, 0, height));
   const { kept, merged } = mergePeaks(peaks, filtered, width, height, Math.max(3, 4 * psfSigmaPx));
-  const candidates = flagCandidates(kept, residual, raw, missing, width, height, psfSigmaPx, stampRadius, opts.saturationLevel ?? null);
+  const flatCoreLevels: number[] = [];
+  const candidates = flagCandidates(kept, residual, raw, missing, width, height, psfSigmaPx, stampRadius, { level: opts.saturationLevel ?? null, mask: opts.saturatedMask ?? null }, sky, flatCoreLevels);
   flagStreaks(candidates, kept, filtered, width, height, psfSigmaPx, stampRadius, threshold * nf * minMeshSigma(sky));
-  return { candidates, psfSigmaPx, threshold, stampRadius, merged };
+  return { candidates, psfSigmaPx, threshold, stampRadius, merged, flatCoreLevels };
+}
+
+/** What marks a pixel saturated: a level (99.5 % of it and above), a per-pixel mask, or both. */
+export interface SaturationTest { level: number | null; mask: Uint8Array | null }
+
+/**
+ * Marks 'saturated' the candidates with a raw pixel at or above 99.5 % of `level` (or in the
+ * mask) within max(2, FWHM) px of their peak: for a frame whose level was found only from
+ * flat-topped cores, after detection (analyze.ts). Returns how many were newly marked.
+ */
+export function flagSaturatedAt(cands: Candidate[], raw: Float32Array, width: number, height: number, psfSigmaPx: number, sat: SaturationTest): number {
+  const r = Math.max(2, Math.ceil(2.354820045 * psfSigmaPx));
+  let n = 0;
+  for (const c of cands) {
+    if (c.flags.includes('saturated')) continue;
+    if (anySaturated(raw, width, height, c.x, c.y, r, sat)) { (c.flags as StarFlag[]).push('saturated'); n++; }
+  }
+  return n;
 }
 
 interface Peak { x: number; y: number; value: number; significance: number }
@@ -187,14 +211,15 @@ function flagCandidates(
   height: number,
   psfSigma: number,
   R: number,
-  saturation: number | null,
+  saturation: SaturationTest,
+  sky: SkyModel,
+  flatCoreLevels: number[],
 ): Candidate[] {
   const fwhm = 2.354820045 * psfSigma;
   // a hot pixel stands alone: its 4-neighbours carry almost nothing, unlike any PSF
   // that the optics can form (a Gaussian of sigma s gives neighbour/centre = exp(-1/(2 s^2)))
   const starRatio = Math.exp(-1 / (2 * psfSigma * psfSigma));
   const hotRatio = Math.min(0.1, 0.35 * starRatio);
-  const satLevel = saturation !== null ? 0.995 * saturation : Infinity;
   const out: Candidate[] = [];
   const grid = new PointGrid(peaks, Math.max(8, Math.ceil(R)), width);
   for (let i = 0; i < peaks.length; i++) {
@@ -212,7 +237,12 @@ function flagCandidates(
       const v = residual[yy * width + xx];
       if (v > peak) { peak = v; px = xx; py = yy; }
     }
-    if (satLevel < Infinity && anySaturated(raw, width, height, px, py, Math.max(2, Math.ceil(fwhm)), satLevel)) flags.push('saturated');
+    if (anySaturated(raw, width, height, px, py, Math.max(2, Math.ceil(fwhm)), saturation)) flags.push('saturated');
+    else {
+      // no level or mask says so: a core equal within the noise is clipped all the same (clipped.ts)
+      const top = flatTop(residual, width, height, px, py, skyNoiseAt(sky, px, py));
+      if (top === top) { flags.push('saturated'); flatCoreLevels.push(top + skyLevelAt(sky, px, py)); }
+    }
     if (px > 0 && py > 0 && px < width - 1 && py < height - 1 && peak > 0) {
       const n4 = (residual[py * width + px - 1] + residual[py * width + px + 1] + residual[(py - 1) * width + px] + residual[(py + 1) * width + px]) / 4;
       if (n4 < hotRatio * peak) flags.push('hot-pixel');
@@ -406,22 +436,28 @@ function anyMissing(m: Uint8Array, width: number, height: number, x: number, y: 
   return false;
 }
 
-function anySaturated(raw: Float32Array, width: number, height: number, x: number, y: number, r: number, level: number): boolean {
+function anySaturated(raw: Float32Array, width: number, height: number, x: number, y: number, r: number, sat: SaturationTest): boolean {
+  const level = sat.level !== null ? 0.995 * sat.level : Infinity;
+  const mask = sat.mask;
+  if (level === Infinity && !mask) return false;
   for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
     const row = yy * width;
-    for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) if (raw[row + xx] >= level) return true;
+    for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) if (raw[row + xx] >= level || (mask && mask[row + xx])) return true;
   }
   return false;
 }
 
-/**
- * PSF size from the brightest isolated maxima: the area above half maximum gives
- * FWHM = 2 sqrt(A / pi) for a round profile (common practice), median over stars.
- */
 /** Threshold (sky sigmas) of the unfiltered maxima estimatePsfSigma measures. */
 export const PSF_PEAK_SIGMA = 15;
 
-export function estimatePsfSigma(residual: Float32Array, width: number, height: number, sky: SkyModel, packedPeaks?: Float64Array): number {
+/**
+ * PSF size from the brightest isolated maxima: the area above half maximum gives
+ * FWHM = 2 sqrt(A / pi) for a round profile (common practice), median over stars.
+ * Saturated stars are left out (issue 13: their flat cores read 3x too wide and widen the
+ * matched filter and the merge radius): with `sat`, any raw pixel within 2 px at the level or
+ * in the mask; and always a flat-topped core (clipped.ts).
+ */
+export function estimatePsfSigma(residual: Float32Array, width: number, height: number, sky: SkyModel, packedPeaks?: Float64Array, sat?: SaturationTest & { raw: Float32Array }): number {
   // maxima of the unfiltered frame at 15 sigma: no noise peak gets there, and no extra pass is needed
   const peaks = unpackPeaks(packedPeaks ?? localMaximaRows(residual, width, height, sky, 1, PSF_PEAK_SIGMA, 0, height));
   peaks.sort((a, b) => b.value - a.value);
@@ -438,6 +474,9 @@ export function estimatePsfSigma(residual: Float32Array, width: number, height: 
     if (area < 1) continue;
     const n4 = (residual[p.y * width + p.x - 1] + residual[p.y * width + p.x + 1]) / 2;
     if (n4 < 0.05 * c) continue; // hot pixel
+    if (sat && anySaturated(sat.raw, width, height, p.x, p.y, 2, sat)) continue;
+    const top = flatTop(residual, width, height, p.x, p.y, skyNoiseAt(sky, p.x, p.y));
+    if (top === top) continue; // a clipped core
     sizes.push(2 * Math.sqrt(area / Math.PI) / 2.354820045);
   }
   if (sizes.length === 0) return 1.2;

@@ -7,7 +7,7 @@
 
 import type { Star, StarFlag, PsfFit } from './types.ts';
 import { fitPsfWithSnr } from './psf-fit.ts';
-import { adaptiveMoments, adaptiveMomentErrors, momentsToEllipse, type AdaptiveMoments } from './moments.ts';
+import { adaptiveMoments, adaptiveMomentErrors, fixedMoments, momentsToEllipse, type AdaptiveMoments } from './moments.ts';
 import { halfFluxDiameterWithError } from './hfd.ts';
 import { selectKth } from '../image/stats.ts';
 import { lazyKernel } from '../wasm/instantiate.ts';
@@ -35,6 +35,31 @@ const FWHM_PER_SIGMA = 2 * Math.sqrt(2 * Math.LN2); // 2.354820045
 const F_MOFFAT = 9;
 /** A fitted profile below this matched-filter SNR is not a detection (amplitude consistent with 0). */
 const MIN_FIT_SNR = 3;
+/**
+ * Below this start FWHM (px, as recorded) the fits integrate the model over each pixel. Stars
+ * under ~1.5 px (Howell's sampling parameter, optics.md 1.6) are undersampled: a model at pixel
+ * centres then depends on the sub-pixel phase. 2.5 px leaves a margin: there the two models give
+ * the same recorded FWHM to 0.1 % (stars-measure.test.ts).
+ */
+export const UNDERSAMPLED_FWHM = 2.5;
+/** Gauss-Legendre points per pixel axis: 3 (the pixel integral of a Gaussian of sigma >= 0.5 px to < 1e-3 of its peak), 4 below. */
+function nodesFor(sigmaMinIntrinsic: number): number {
+  return sigmaMinIntrinsic >= 0.5 ? 3 : 4;
+}
+/** Below this Gaussian-fit SNR an undersampled star is not fitted with a Moffat in 'auto' (see measureStarJs). */
+const MOFFAT_MIN_SNR_UNDERSAMPLED = 30;
+/** The box's variance per axis, px^2 (optics.md 1.6). */
+const BOX_VAR = 1 / 12;
+
+/**
+ * A fit start for the pixel-integrated model from a recorded covariance: less the box's variance,
+ * each axis kept at sigma >= 0.2 px (a start only; the fit finds the size).
+ */
+function intrinsicStart<T extends { ixx: number; iyy: number; ixy: number }>(c: T): T {
+  const ixx = Math.max(c.ixx - BOX_VAR, 0.04), iyy = Math.max(c.iyy - BOX_VAR, 0.04);
+  const lim = 0.95 * Math.sqrt(ixx * iyy);
+  return { ...c, ixx, iyy, ixy: Math.max(-lim, Math.min(lim, c.ixy)) };
+}
 
 let VAR = new Float32Array(0);
 let INF = new Float32Array(0);
@@ -215,12 +240,22 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   // between 2.5 and 3 FWHM).
   const lmax = 0.5 * (init.ixx + init.iyy) + Math.sqrt(0.25 * (init.ixx - init.iyy) ** 2 + init.ixy * init.ixy);
   const radius = Math.max(4, 2.5 * FWHM_PER_SIGMA * Math.sqrt(lmax));
-  const rG = fitIt && want !== 'moffat' ? fitPsfWithSnr(stamp, w, h, { model: 'gaussian', variance, init, radius }) : null;
+  // Undersampled stars: both models integrated over each pixel, started from the covariance less the box.
+  const lmin = 0.5 * (init.ixx + init.iyy) - Math.sqrt(0.25 * (init.ixx - init.iyy) ** 2 + init.ixy * init.ixy);
+  const startFwhm = FWHM_PER_SIGMA * Math.sqrt(Math.sqrt(Math.max(lmax * lmin, 0)));
+  const pixelNodes = startFwhm < UNDERSAMPLED_FWHM ? nodesFor(Math.sqrt(Math.max(lmin - BOX_VAR, 0))) : 1;
+  const fitStart = <T extends { ixx: number; iyy: number; ixy: number }>(c: T): T => (pixelNodes > 1 ? intrinsicStart(c) : c);
+  const rG = fitIt && want !== 'moffat' ? fitPsfWithSnr(stamp, w, h, { model: 'gaussian', variance, init: fitStart(init), radius, pixelNodes }) : null;
   const fitG = rG ? rG.fit : null;
   // The Moffat starts from the Gaussian fit when there is one (same half-maximum contour;
   // the start centre, which also centres the window, stays the same).
   const initM = fitG !== null && fitG.converged ? { ...initFromFit(fitG), x: init.x, y: init.y } : init;
-  const rM = fitIt && want !== 'gaussian' ? fitPsfWithSnr(stamp, w, h, { model: 'moffat', variance, init: initM, radius }) : null;
+  // An undersampled star fainter than SNR 30 gets no Moffat in 'auto': its wings are too faint
+  // for the F test to prefer one (test/bench/undersampled.bench.ts: beta 3 stars of FWHM 1.3-1.8 px
+  // were preferred 0-1 times in 120 at SNR 10-20, 3-8 at SNR 30, 26-32 at 50), and the integrated
+  // Moffat is the costliest fit (a log and an exp per node).
+  const skipM = pixelNodes > 1 && want === 'auto' && rG !== null && rG.fit.converged && rG.snr < MOFFAT_MIN_SNR_UNDERSAMPLED;
+  const rM = fitIt && want !== 'gaussian' && !skipM ? fitPsfWithSnr(stamp, w, h, { model: 'moffat', variance, init: fitStart(initM), radius, pixelNodes }) : null;
   const fitM = rM ? rM.fit : null;
   let fit: PsfFit | null = null;
   const snrG = rG && usable(rG.fit, w, h) ? rG.snr : NaN;
@@ -252,6 +287,33 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
     }
   }
 
+  // Undersampled stars: the adaptive iteration has no fixed point there (a star narrower than
+  // about 1 px sigma, sampled at pixel centres, shrinks the weighted variance with the weight), and
+  // where it converges it does so for the stars that happen to read wide (at FWHM 1.5 px their
+  // size T came out 3 % high on average, against 0.3 % from the fit). The Gaussian fit, integrated
+  // over the pixels, gives the covariance as recorded (box included, the adaptive moments' own
+  // definition for a Gaussian star); the third moments and the errors then use that fixed weight
+  // (fixedMoments), on the stamp less the fit's background. So for every star of a frame whose PSF
+  // (the detection's estimate, sigmaGuess) is undersampled: one kind of moment per frame, as the
+  // field map compares stars across it. Not where the reported fit is a Moffat 25 % off the
+  // Gaussian's size (a blend or an odd profile, whose Gaussian covariance would misstate it); nor
+  // in a well-sampled frame, where failed adaptive moments mark such a star (on the demo frame, 8
+  // of 1447, whose Gaussian fits read 2-4x the size of their reported fit).
+  const fitSizeAgrees = fit === fitG || (fit !== null && gOk && Math.abs(Math.sqrt(((fitG as PsfFit).fwhmMajorPx * (fitG as PsfFit).fwhmMinorPx) / (fit.fwhmMajorPx * fit.fwhmMinorPx)) - 1) < 0.25);
+  if (FWHM_PER_SIGMA * sigmaGuess < UNDERSAMPLED_FWHM && gOk && fitSizeAgrees) {
+    const f = fitG as PsfFit;
+    let cov = f.recordedCov;
+    if (!cov) {
+      const s1 = f.fwhmMajorPx / FWHM_PER_SIGMA, s2 = f.fwhmMinorPx / FWHM_PER_SIGMA;
+      const t = (f.thetaDeg * Math.PI) / 180, ct = Math.cos(t), st = Math.sin(t);
+      cov = { ixx: s1 * s1 * ct * ct + s2 * s2 * st * st, iyy: s1 * s1 * st * st + s2 * s2 * ct * ct, ixy: (s1 * s1 - s2 * s2) * ct * st };
+    }
+    if (MOMS.length < n) MOMS = new Float32Array(Math.max(n, 2 * MOMS.length));
+    const lifted = minus(stamp, f.background, MOMS.subarray(0, n));
+    const fm = fixedMoments(lifted, w, h, f.x, f.y, cov.ixx, cov.iyy, cov.ixy);
+    if (fm.converged) { mom = fm; momStamp = lifted; momOk = true; }
+  }
+
   // Centre for HFD and as fallback position.
   const hx = momOk ? mom.x : fit ? fit.x : px;
   const hy = momOk ? mom.y : fit ? fit.y : py;
@@ -262,8 +324,22 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
   const maxR = Number.isFinite(fitFwhm) ? Math.min(stampR, Math.max(5, 4 * fitFwhm)) : stampR;
   // r50 guess: the Gaussian value 1.1774 sigma (optics.md §1.1) from the moments.
   const r50Guess = momOk ? 1.1774 * Math.sqrt(0.5 * (mom.ixx + mom.iyy)) : 1.1774 * sigmaGuess;
-  const hfd = halfFluxDiameterWithError(localSkySubtracted(stamp, w, h, hx, hy, maxR), variance, w, h, hx, hy, maxR, r50Guess);
-  const hfdErr = hfd.errPx;
+  const hfdStamp = localSkySubtracted(stamp, w, h, hx, hy, maxR);
+  const hfd = halfFluxDiameterWithError(hfdStamp, variance, w, h, hx, hy, maxR, r50Guess);
+  // The ring's sky level is uncertain by its sigma / sqrt(pixels); over the aperture that moves
+  // the total flux, which a faint star's half-flux radius follows (on the star-tracker frame: HFDs
+  // of 20-35 px for SNR 10-20 stars of FWHM 6-9 px, against 10 px for bright ones). The HFD read
+  // again with the sky raised by that much gives the term; an HFD uncertain by more than a quarter
+  // is no measurement (NaN), so it cannot reach a median.
+  let hfdPx = hfd.hfdPx;
+  let hfdErr = hfd.errPx;
+  if (RING_ERR > 0 && Number.isFinite(hfdPx)) {
+    if (HFD2.length < n) HFD2 = new Float32Array(Math.max(n, 2 * HFD2.length));
+    const again = halfFluxDiameterWithError(minus(hfdStamp, RING_ERR, HFD2.subarray(0, n)), variance, w, h, hx, hy, maxR, r50Guess);
+    const skyTerm = Math.abs(again.hfdPx - hfdPx);
+    hfdErr = Math.sqrt(hfdErr * hfdErr + skyTerm * skyTerm);
+    if (!(hfdErr <= MAX_HFD_REL_ERR * hfdPx)) { hfdPx = Number.NaN; hfdErr = Number.NaN; }
+  }
   const merr = momOk ? adaptiveMomentErrors(momStamp, variance, w, h, mom) : { x: NaN, y: NaN, e1: NaN, e2: NaN };
 
   const nan = Number.NaN;
@@ -285,7 +361,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       fwhmMinorPx: fit.fwhmMinorPx,
       ellipticity: 1 - fit.fwhmMinorPx / fit.fwhmMajorPx,
       thetaDeg: fit.thetaDeg,
-      hfdPx: hfd.hfdPx,
+      hfdPx,
       coma,
       flags,
       model: fit.model,
@@ -319,7 +395,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       fwhmMinorPx: FWHM_PER_SIGMA * el.b,
       ellipticity: 1 - el.b / el.a,
       thetaDeg: el.thetaDeg,
-      hfdPx: hfd.hfdPx,
+      hfdPx,
       coma,
       flags,
       model: 'moments',
@@ -328,7 +404,7 @@ export function measureStarJs(input: StampInput, opts?: MeasureOptions): Star {
       err: { x: merr.x, y: merr.y, fwhmPx: nan, ellipticity: nan, thetaDeg: nan, hfdPx: hfdErr, e1: merr.e1, e2: merr.e2 },
     };
   } else {
-    return emptyStar(flags, ox + px, oy + py, hfd.hfdPx, fitIt);
+    return emptyStar(flags, ox + px, oy + py, hfdPx, fitIt);
   }
   // the star holds `flags` itself, so a late flag lands in it
   if (!(snr >= (opts?.minSnr ?? 10))) addFlag(flags, 'low-snr');
@@ -396,8 +472,8 @@ function borderVariance(stamp: Float32Array, w: number, h: number): number {
 }
 
 /**
- * Median of the pixels in the ring rMax - 2 <= r <= rMax about (x, y), and their count
- * (the upper middle value for an even count). Uses the RING scratch.
+ * The sky level of the pixels in the ring rMax - 2 <= r <= rMax about (x, y) (their clipped
+ * mean, clippedRingMean), and their count. Uses the RING scratch.
  */
 function ringLevel(stamp: Float32Array, w: number, h: number, x: number, y: number, rMax: number): { level: number; n: number } {
   const r0 = (rMax - 2) * (rMax - 2);
@@ -414,7 +490,36 @@ function ringLevel(stamp: Float32Array, w: number, h: number, x: number, y: numb
       if (d >= r0 && d <= r1 && v === v) RING[n++] = v;
     }
   }
-  return { level: n > 0 ? selectKth(RING, n, n >> 1) : Number.NaN, n };
+  return { level: n > 0 ? clippedRingMean(RING, n) : Number.NaN, n };
+}
+
+let RDEV = new Float32Array(0);
+let HFD2 = new Float32Array(0); // the HFD's stamp with the sky raised by its uncertainty
+/** The last ring sky's standard error (sigma / sqrt(pixels averaged)); 0 when no ring was measured. */
+let RING_ERR = 0;
+/** An HFD less certain than this (relative, noise and the ring sky's uncertainty) is reported as NaN. */
+const MAX_HFD_REL_ERR = 0.25;
+/**
+ * Mean of ring[0..n) within 5 sigma of its median (sigma = 1.4826 x the median absolute
+ * deviation, or the rms about the median when most values are equal, as in quantised dark sky).
+ * The curve of growth sums pixels, so the sky under it is the ring's mean, not its median: on
+ * skewed sky (8-bit data floored at 0, a few counts per pixel) the median is 0 while the mean is
+ * not, and the difference times a large aperture swamps a faint star. The clip keeps neighbours'
+ * cores out, as the median did; at 5 sigma it keeps the sky's own skewed tail (the 1-count pixels
+ * of a floored sky of rms 0.3). Sets RING_ERR. `ring` is reordered.
+ */
+function clippedRingMean(ring: Float32Array, n: number): number {
+  const med = selectKth(ring, n, n >> 1);
+  if (RDEV.length < n) RDEV = new Float32Array(Math.max(n, 2 * RDEV.length));
+  let ss = 0;
+  for (let i = 0; i < n; i++) { const d = ring[i] - med; RDEV[i] = Math.abs(d); ss += d * d; }
+  let sigma = 1.4826 * selectKth(RDEV, n, n >> 1);
+  if (!(sigma > 0)) sigma = Math.sqrt(ss / n);
+  const lim = 5 * sigma;
+  let sum = 0, m = 0;
+  for (let i = 0; i < n; i++) { const v = ring[i]; if (Math.abs(v - med) <= lim) { sum += v; m++; } }
+  RING_ERR = m > 0 ? sigma / Math.sqrt(m) : 0;
+  return m > 0 ? sum / m : med;
 }
 
 /** stamp - level into the given scratch (the input is never modified). */
@@ -424,15 +529,16 @@ function minus(stamp: Float32Array, level: number, out: Float32Array): Float32Ar
 }
 
 /**
- * The stamp less its local sky: the median of an outer ring (2 px wide) about the star.
+ * The stamp less its local sky: the clipped mean of an outer ring (2 px wide) about the star.
  * The mesh sky can be off near bright stars or in crowded fields, and any offset
  * enters the curve of growth times the aperture area (common practice: a local
  * annulus background for aperture photometry).
  */
 function localSkySubtracted(stamp: Float32Array, w: number, h: number, x: number, y: number, rMax: number): Float32Array {
+  RING_ERR = 0;
   if (!(rMax > 6)) return stamp;
   const ring = ringLevel(stamp, w, h, x, y, rMax);
-  if (ring.n < 12) return stamp;
+  if (ring.n < 12) { RING_ERR = 0; return stamp; }
   const sky = ring.level;
   if (!Number.isFinite(sky) || sky === 0) return stamp;
   if (HFDS.length < stamp.length) HFDS = new Float32Array(Math.max(stamp.length, 2 * HFDS.length));

@@ -148,12 +148,13 @@ interface MomentsKernel {
   variance: Float32Array;
   out: Float64Array;
   moments: (w: number, h: number, x0: number, y0: number, sigma0: number) => void;
+  fixed: (w: number, h: number, x: number, y: number, ixx: number, iyy: number, ixy: number) => void;
   errors: (w: number, h: number, varMode: number, constVar: number, x: number, y: number, ixx: number, iyy: number, ixy: number) => void;
 }
 /** adaptiveMomentsJs and adaptiveMomentErrorsJs compiled to WebAssembly (wasm/moments.as.ts), once per thread. */
 const momentsKernel = lazyKernel<MomentsKernel>(MOMENTS_WASM_BASE64, 'moments', (m) => {
   const cap = m.int('capacity');
-  return { stamp: m.f32('stampPtr', cap), variance: m.f32('variancePtr', cap), out: m.f64('outPtr', 16), moments: m.fn('moments'), errors: m.fn('momentErrors') };
+  return { stamp: m.f32('stampPtr', cap), variance: m.f32('variancePtr', cap), out: m.f64('outPtr', 16), moments: m.fn('moments'), fixed: m.fn('fixedMoments'), errors: m.fn('momentErrors') };
 });
 
 /** adaptiveMoments in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
@@ -228,6 +229,37 @@ export function adaptiveMomentsJs(stamp: Float32Array, w: number, h: number, x0:
     converged,
     iterations: it,
   };
+}
+
+/**
+ * The adaptive moments' result for a star whose covariance is already known (from a PSF fit, for
+ * undersampled stars whose adaptive iteration has no fixed point: sampled at pixel centres, a
+ * star narrower than about 1 px sigma makes the weighted variance shrink with the weight, down to
+ * a single pixel). The weight is fixed at that covariance about (x, y), which is where the
+ * adaptive weight settles for a Gaussian star, so ixx, iyy, ixy, e1, e2 are the given ones,
+ * flux = 2 sum(w I) and the spin-1 coma the weighted third moment about (x, y), normalised as in
+ * adaptiveMoments. converged = false when the weighted flux is not positive.
+ */
+export function fixedMoments(stamp: Float32Array, w: number, h: number, x: number, y: number, ixx: number, iyy: number, ixy: number): AdaptiveMoments {
+  const k = momentsKernel();
+  if (k && w > 0 && h > 0 && w * h <= k.stamp.length) {
+    k.stamp.set(stamp.subarray(0, w * h));
+    k.fixed(w, h, x, y, ixx, iyy, ixy);
+    const o = k.out;
+    return { x: o[0], y: o[1], ixx: o[2], iyy: o[3], ixy: o[4], e1: o[5], e2: o[6], flux: o[7], comaX: o[8], comaY: o[9], converged: o[10] === 1, iterations: o[11] };
+  }
+  return fixedMomentsJs(stamp, w, h, x, y, ixx, iyy, ixy);
+}
+
+/** fixedMoments in TypeScript: the reference for the WebAssembly kernel, and the fallback. */
+export function fixedMomentsJs(stamp: Float32Array, w: number, h: number, x: number, y: number, ixx: number, iyy: number, ixy: number): AdaptiveMoments {
+  const nan = Number.NaN;
+  const T = ixx + iyy;
+  if (!pass(stamp, w, h, x, y, ixx, iyy, ixy, true) || !(S[0] > 0) || !(T > 0)) {
+    return { x, y, ixx: nan, iyy: nan, ixy: nan, e1: nan, e2: nan, flux: nan, comaX: nan, comaY: nan, converged: false, iterations: 0 };
+  }
+  const norm = S[0] * Math.pow(T / 2, 1.5);
+  return { x, y, ixx, iyy, ixy, e1: (ixx - iyy) / T, e2: (2 * ixy) / T, flux: 2 * S[0], comaX: S[6] / norm, comaY: S[7] / norm, converged: true, iterations: 0 };
 }
 
 /**

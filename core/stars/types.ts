@@ -7,7 +7,8 @@ export type StarFlag =
   | 'blended'     // another source within the fitting stamp
   | 'fit-failed'  // no converged PSF fit (none is tried for a hot pixel)
   | 'low-snr'     // below the measurement SNR threshold
-  | 'streak';     // on a long line: satellite or meteor trail, aircraft lights
+  | 'streak'      // on a long line: satellite or meteor trail, aircraft lights
+  | 'spurious';   // no star of this frame: much narrower or wider than its neighbours, or too diffuse (noise blob, artefact)
 
 /** A detection candidate from the matched filter, in measured-plane pixels. */
 export interface Candidate {
@@ -36,6 +37,11 @@ export interface PsfFit {
   readonly chi2Reduced: number;
   readonly iterations: number;
   readonly converged: boolean;
+  /**
+   * Pixel-integrated fits: the fitted profile's covariance plus the pixel box's (I/12), px^2, the
+   * recorded star's second moments (Gaussian: the covariance; Moffat: its half-maximum Gaussian's).
+   */
+  readonly recordedCov?: { readonly ixx: number; readonly iyy: number; readonly ixy: number };
   /** 1-sigma errors from the covariance matrix. */
   readonly err: {
     readonly x: number;

@@ -94,8 +94,8 @@ const KNOWN: Record<string, string> = {
   'tetra3 Alt40_Azi45:ellipticity': 'as above',
   'openstartracker feb16_2:ellipticity': 'trailed stars: e from a Gaussian fit vs isophotal moments; simulator (trail 14 px): truth 0.44 at half maximum, 0.355 in moments; skyloupe 0.376, SExtractor 0.359',
   'openstartracker feb16_2:fwhm': 'SExtractor FWHM_IMAGE (from the isophotal area) is not a half-maximum width for trailed stars: simulator 12.9 (SExtractor) and 10.2 (skyloupe) for a true geometric-mean half-maximum width of 10.7',
-  'HST 47 Tuc:counts': 'crowded field: skyloupe flags 90 % of its detections as blended and its sky sigma is inflated (bug report in the note)',
-  'HST 47 Tuc:fwhm': 'undersampled crowded field (FWHM ~2 px): 7 % apart; the simulator check for undersampled stars below finds SExtractor FWHM_IMAGE runs low there, skyloupe within 2.5 % of the truth',
+  'HST 47 Tuc:counts': 'crowded field: skyloupe keeps ~3000 clean stars above its SNR 30 against SExtractor\'s 772 (FLUX_AUTO / FLUXERR_AUTO is a different SNR); 96 % of SExtractor\'s clean stars are clean in skyloupe (checked below)',
+  'HST 47 Tuc:fwhm': 'undersampled crowded field (FWHM ~2 px): 6 % apart; the simulator check for undersampled stars below finds SExtractor FWHM_IMAGE runs 12 % low there, skyloupe within 0.5 % of the truth',
   'HST 47 Tuc:ellipticity': 'undersampled stars: skyloupe 0.18 vs 0.14; the simulator check below finds SExtractor underestimates ellipticity of undersampled stars (0.037 for a truth of 0.056) while skyloupe is within 0.004',
 };
 
@@ -105,10 +105,9 @@ const KNOWN: Record<string, string> = {
  */
 const WIDER: Record<string, [number, string]> = {
   'tetra3 Alt60_Azi135:fwhm': [0.12, 'undersampled, 16 stars: 1.30 vs 1.37 measured (5 %); simulator: SExtractor FWHM_IMAGE runs 4-13 % low there, skyloupe within 2.5 % of truth'],
-  'tetra3 Alt40_Azi45:fwhm': [0.12, 'undersampled, 12 stars: within 2-7 % between runs of the changing engine'],
+  'tetra3 Alt40_Azi45:fwhm': [0.2, 'undersampled, 12 stars: 1.28 vs 1.49 measured (17 %); simulator: SExtractor FWHM_IMAGE runs 12 % low there (1.31 vs a true 1.49), skyloupe\'s pixel-integrated fit within 0.5 %'],
   'tetra3 Alt60_Azi135:hfd': [0.15, 'undersampled: both HFDs run high (simulator: +15 % skyloupe, +11 % SExtractor); measured 9 % apart'],
   'tetra3 Alt40_Azi45:hfd': [0.15, 'as above; measured 6 % apart'],
-  'openstartracker feb16_2:hfd': [0.12, 'bright stars agree within 1 %; faint 8-bit stars: skyloupe 10-30 % larger; median 6 % apart'],
 };
 
 const FRAMES: { label: string; file: string; sexFile?: string; readmeDetections?: number }[] = [
@@ -145,6 +144,26 @@ describe('skyloupe vs source-extractor on real frames', () => {
       }
     }, 60_000);
   }
+});
+
+// Issue 13 "How it is checked": on the crowded HST frame, at least 90 % of the stars Source Extractor
+// measures cleanly (FLAGS 0, SNR > 30, 10 px from the border) are measured cleanly by skyloupe too
+// (matched within 1 px), with the median HFD of those pairs within 5 %. (Before the DQ extension was
+// read and the PSF size taken from unsaturated stars, 179 of 772 were.)
+describe('crowded real frame: completeness against Source Extractor', () => {
+  it('HST 47 Tuc: >= 90 % of Source Extractor\'s clean stars clean in skyloupe, HFD within 5 %', async () => {
+    const frame = await readFrame(HST);
+    const a = await analyzeFrame(frame, { workers: 0 });
+    const sx = runSextractor(`${HST}[1]`, { saturation: 1e9 }).stars;
+    const inside = (s: { x: number; y: number }) => s.x > 10 && s.y > 10 && s.x < frame.width - 11 && s.y < frame.height - 11;
+    const sClean = sx.filter((s) => s.flags === 0 && s.snr > 30 && inside(s));
+    const pairs = matchStars(sClean, a.stars.filter((s) => s.flags.length === 0 && Number.isFinite(s.hfdPx)), 1);
+    const hfdRatio = median(pairs.map(([p, q]) => q.hfdPx / p.hfdPx));
+    console.log(`HST 47 Tuc: ${pairs.length} of ${sClean.length} Source Extractor clean stars clean in skyloupe (${((100 * pairs.length) / sClean.length).toFixed(1)} %), median HFD ratio ${hfdRatio.toFixed(3)}; frame.saturation ${JSON.stringify(a.frame.saturation)}, PSF sigma ${a.detection.psfSigmaPx.toFixed(2)} px`);
+    expect(a.frame.saturation.source).toBe('DQ');
+    expect(pairs.length).toBeGreaterThanOrEqual(0.9 * sClean.length);
+    expect(Math.abs(hfdRatio - 1)).toBeLessThan(0.05);
+  }, 120_000);
 });
 
 /** A simulated frame on disk with its truth. */

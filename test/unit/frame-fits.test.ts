@@ -222,7 +222,10 @@ describe('FITS structure', () => {
 
   it('optics keywords become header hints; XPIXSZ is taken as already binned', () => {
     const f = decodeFits(hdu(primary(16, 1, 1, [kv('FOCALLEN', 400), kv('APTDIA', 80), kv('XPIXSZ', 7.52), kv('XBINNING', 2), kv('INSTRUME', 'CamX')]), be(16, [0])));
-    expect(f.hints).toEqual({ from: 'header', focalLengthMm: 400, apertureMm: 80, pixelSizeUm: 7.52, binning: 2, camera: 'CamX' });
+    expect(f.hints).toEqual({
+      from: 'header', focalLengthMm: 400, apertureMm: 80, pixelSizeUm: 7.52, binning: 2, camera: 'CamX',
+      keywords: { focalLengthMm: 'FOCALLEN', apertureMm: 'APTDIA', pixelSizeUm: 'XPIXSZ' },
+    });
     expect(decodeFits(hdu(primary(16, 1, 1), be(16, [0]))).hints).toBeNull();
   });
 });

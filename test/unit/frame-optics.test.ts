@@ -25,7 +25,10 @@ describe('resolveOptics', () => {
     expect(o.pixelSizeUm).toBe(3.76);
     expect(o.fNumber).toBe(5);
     expect(o.plateScaleArcsecPerPx).toBeCloseTo(1.9389, 4);
-    expect(o.source).toEqual({ focalLengthMm: 'header', pixelSizeUm: 'header', fNumber: 'derived', plateScaleArcsecPerPx: 'derived' });
+    expect(o.source).toEqual({
+      focalLengthMm: 'header', pixelSizeUm: 'header', fNumber: 'derived', plateScaleArcsecPerPx: 'derived',
+      keywords: { focalLengthMm: null, pixelSizeUm: null, fNumber: 'focal length/aperture' },
+    });
   });
 
   it('CFA superpixels (scale 2): the measured plane has twice the pitch and twice the plate scale', () => {
@@ -51,7 +54,7 @@ describe('resolveOptics', () => {
     const o = resolveOptics(null, {}, 1);
     expect(o).toEqual({
       focalLengthMm: null, pixelSizeUm: null, fNumber: null, plateScaleArcsecPerPx: null,
-      source: { focalLengthMm: null, pixelSizeUm: null, fNumber: null, plateScaleArcsecPerPx: null },
+      source: { focalLengthMm: null, pixelSizeUm: null, fNumber: null, plateScaleArcsecPerPx: null, keywords: { focalLengthMm: null, pixelSizeUm: null, fNumber: null } },
     });
     const e = resolveOptics({ from: 'exif', focalLengthMm: 50, fNumber: 2 }, {}, 1);
     expect([e.source.focalLengthMm, e.source.fNumber, e.pixelSizeUm, e.plateScaleArcsecPerPx]).toEqual(['exif', 'exif', null, null]);
@@ -62,6 +65,37 @@ describe('resolveOptics', () => {
     const o = resolveOptics(h, {}, 1);
     expect(o.pixelSizeUm).toBe(7.52);
     expect(h?.binning).toBe(2);
+  });
+
+  // The f-number's common header spellings (issue 13 "Metadata"; FOCRATIO and APTDIA are the SBIG
+  // extension keywords, FNUMBER is written by some capture programs [CP, from memory]); the
+  // report names the card that served.
+  const keys = (o: Record<string, number>) => new Map<string, string | number | boolean | null>(Object.entries(o));
+  it('FNUMBER is read as the f-number, and the card is named', () => {
+    const o = resolveOptics(fitsOpticsHints(keys({ FOCALLEN: 35, FNUMBER: 1.9, XPIXSZ: 6.9 })), {}, 1);
+    expect(o.fNumber).toBe(1.9);
+    expect(o.source.fNumber).toBe('header');
+    expect(o.source.keywords).toEqual({ focalLengthMm: 'FOCALLEN', pixelSizeUm: 'XPIXSZ', fNumber: 'FNUMBER' });
+  });
+
+  it('FOCRATIO wins over FNUMBER and over FOCALLEN/APTDIA', () => {
+    const o = resolveOptics(fitsOpticsHints(keys({ FOCALLEN: 400, FOCRATIO: 5.6, FNUMBER: 4, APTDIA: 80 })), {}, 1);
+    expect([o.fNumber, o.source.keywords?.fNumber]).toEqual([5.6, 'FOCRATIO']);
+  });
+
+  it('APTDIA with FOCALLEN gives N = f/D = 400/80 = 5, derived from both cards', () => {
+    const o = resolveOptics(fitsOpticsHints(keys({ FOCALLEN: 400, APTDIA: 80, PIXSIZE1: 3.76 })), {}, 1);
+    expect(o.fNumber).toBe(5);
+    expect(o.source.fNumber).toBe('derived');
+    expect(o.source.keywords).toEqual({ focalLengthMm: 'FOCALLEN', pixelSizeUm: 'PIXSIZE1', fNumber: 'FOCALLEN/APTDIA' });
+    // with the user's focal length, the ratio says so
+    const u = resolveOptics(fitsOpticsHints(keys({ APTDIA: 80 })), { focalLengthMm: 480 }, 1);
+    expect([u.fNumber, u.source.fNumber, u.source.keywords?.fNumber, u.source.keywords?.focalLengthMm]).toEqual([6, 'derived', 'user focal length/APTDIA', null]);
+  });
+
+  it('a user f-number names no card', () => {
+    const o = resolveOptics(fitsOpticsHints(keys({ FNUMBER: 2.8 })), { fNumber: 4 }, 1);
+    expect([o.fNumber, o.source.fNumber, o.source.keywords?.fNumber]).toEqual([4, 'user', null]);
   });
 
   it('bad user values are usage errors', () => {

@@ -29,7 +29,7 @@ describe('per-star measurement in WebAssembly', () => {
     for (let k = 0; k < 160; k++) {
       const W = k % 9 === 0 ? 31 : 23;
       const moffat = k % 2 === 1;
-      const fw = 2 + 4 * u();
+      const fw = k % 4 === 2 ? 0.9 + 1.5 * u() : 2 + 4 * u(); // a quarter undersampled (pixel-integrated fits)
       const t: StarTruth = { model: moffat ? 'moffat' : 'gaussian', beta: 2 + 3 * u(), x0: (W - 1) / 2 + u() - 0.5, y0: (W - 1) / 2 + u() - 0.5, flux: 2e4, fwhmMajor: fw, fwhmMinor: fw * (0.55 + 0.45 * u()), thetaDeg: 180 * u() - 90 };
       const clean = render(t, W, W, 'integrated', 4);
       const nu = k % 11 === 0 ? 2 + 4 * u() : 15 + 400 * u(); // some too faint to fit

@@ -2,6 +2,7 @@
 import type { Report } from '../types.ts';
 import { esc, num, svgOpen, text } from './util.ts';
 import type { Theme } from './theme.ts';
+import { saturationText } from '../../frame/saturation.ts';
 
 const SEVERITY_LABEL: Record<string, string> = { major: 'Act on this', minor: 'Worth a look', info: 'Note' };
 
@@ -35,10 +36,11 @@ export function findingsHtml(findings: Report['findings']): string {
 export function summaryHtml(report: Report): string {
   const o = report.frame.optics;
   const s = report.summary;
-  const src = (k: keyof typeof o.source) => (o.source[k] ? ` <span class="src">(${esc(o.source[k])})</span>` : '');
+  const src = (k: 'focalLengthMm' | 'pixelSizeUm' | 'fNumber') => (o.source[k] ? ` <span class="src">(${esc(o.source[k])}${o.source.keywords?.[k] ? ` ${esc(o.source.keywords[k])}` : ''})</span>` : '');
   const rows: [string, string][] = [
     ['Frame', `${esc(report.frame.path)} · ${report.frame.width} × ${report.frame.height} px · ${esc(report.frame.format)}${report.frame.cfa ? ` · ${esc(report.frame.cfa)} mosaic` : ''}`],
     ['Optics', `focal length ${num(o.focalLengthMm, 0)} mm${src('focalLengthMm')} · pixel ${num(o.pixelSizeUm, 2)} µm${src('pixelSizeUm')} · f/${num(o.fNumber, 1)}${src('fNumber')} · ${num(o.plateScaleArcsecPerPx, 3)} ″/px`],
+    ...(report.frame.saturation ? [['Saturation', esc(saturationText(report.frame.saturation))] as [string, string]] : []),
     ['Stars', `<span data-k="stars">${s.stars}</span> used of <span data-k="measured">${report.detection.measured}</span> measured (${report.detection.candidates} detections)`],
     ['FWHM', `<span data-k="fwhm">${num(s.medianFwhmPx, 2)}</span> px${s.medianFwhmArcsec !== null ? ` · ${num(s.medianFwhmArcsec, 2)}″` : ''} (median) · HFD ${num(s.medianHfdPx, 2)} px`],
     ['Ellipticity', `<span data-k="ellipticity">${num(s.medianEllipticity, 3)}</span> (median)`],

@@ -74,6 +74,24 @@ function pass(w: i32, h: i32, xc: f64, yc: f64, wxx: f64, wyy: f64, wxy: f64, th
   return true;
 }
 
+/** fixedMoments(STAMP, w, h, x, y, ixx, iyy, ixy) of ../moments.ts; results in OUT[0..12) as moments(). */
+export function fixedMoments(w: i32, h: i32, x: f64, y: f64, ixx: f64, iyy: f64, ixy: f64): void {
+  const T = ixx + iyy;
+  const nan: f64 = NaN;
+  unchecked(OUT[0] = x); unchecked(OUT[1] = y); unchecked(OUT[11] = 0);
+  if (!pass(w, h, x, y, ixx, iyy, ixy, true) || !(unchecked(S[0]) > 0) || !(T > 0)) {
+    for (let i = 2; i < 10; i++) unchecked(OUT[i] = nan);
+    unchecked(OUT[10] = 0);
+    return;
+  }
+  const norm = unchecked(S[0]) * Math.pow(T / 2, 1.5);
+  unchecked(OUT[2] = ixx); unchecked(OUT[3] = iyy); unchecked(OUT[4] = ixy);
+  unchecked(OUT[5] = (ixx - iyy) / T); unchecked(OUT[6] = (2 * ixy) / T);
+  unchecked(OUT[7] = 2 * unchecked(S[0]));
+  unchecked(OUT[8] = unchecked(S[6]) / norm); unchecked(OUT[9] = unchecked(S[7]) / norm);
+  unchecked(OUT[10] = 1);
+}
+
 /** adaptiveMoments(STAMP, w, h, x0, y0, sigma0) of ../moments.ts; results in OUT[0..12). */
 export function moments(w: i32, h: i32, x0: f64, y0: f64, sigma0: f64): void {
   let xc = x0, yc = y0;

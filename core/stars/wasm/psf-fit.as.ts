@@ -33,6 +33,24 @@ const UNIT = new StaticArray<f64>(8);
 // results: P[0..8), H[8..72) (m x m, row-major), chi2, iterations, converged, pixels, snr
 const OUT = new StaticArray<f64>(80);
 
+// Gauss-Legendre nodes and weights on a pixel (../psf-fit.ts setNodes); NN of them, 0: point model
+const NT = new StaticArray<f64>(4);
+const NW = new StaticArray<f64>(4);
+let NN: i32 = 0;
+const JP = new StaticArray<f64>(8); // one pixel's Jacobian (integrated model)
+
+function setNodes(n: i32): void {
+  NN = n == 3 || n == 4 ? n : 0;
+  if (n == 3) {
+    const t = 0.5 * Math.sqrt(0.6);
+    unchecked(NT[0] = -t); unchecked(NT[1] = 0); unchecked(NT[2] = t);
+    unchecked(NW[0] = 5.0 / 18.0); unchecked(NW[1] = 8.0 / 18.0); unchecked(NW[2] = 5.0 / 18.0);
+  } else if (n == 4) {
+    unchecked(NT[0] = -0.4305681557970263); unchecked(NT[1] = -0.1699905217924281); unchecked(NT[2] = 0.1699905217924281); unchecked(NT[3] = 0.4305681557970263);
+    unchecked(NW[0] = 0.1739274225687269); unchecked(NW[1] = 0.3260725774312731); unchecked(NW[2] = 0.3260725774312731); unchecked(NW[3] = 0.1739274225687269);
+  }
+}
+
 let GW: i32 = 0;
 let BX0: i32 = 0, BX1: i32 = -1, BY0: i32 = 0, BY1: i32 = -1;
 let HM: i32 = 7;
@@ -62,7 +80,164 @@ function validShape(p: StaticArray<f64>, moffat: bool, w: i32, h: i32): bool {
   return wk * r * r;
 }
 
+// node values of the integrated model per box pixel and node (../psf-fit.ts chi2AtIntegrated)
+const NODE_CAP: i32 = 65536;
+const NE = new StaticArray<f64>(NODE_CAP);
+const NLU = new StaticArray<f64>(NODE_CAP);
+const NIU = new StaticArray<f64>(NODE_CAP);
+const CXN = new StaticArray<f64>(4 * 1024);
+const XN = new StaticArray<f64>(4);
+
+/** chi2At for the pixel-integrated model (../psf-fit.ts chi2AtIntegrated). */
+function chi2AtIntegrated(p: StaticArray<f64>, moffat: bool): f64 {
+  const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
+  const bw = xb - xa + 1;
+  const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
+  const a = unchecked(p[4]), b2 = 2 * unchecked(p[5]), c = unchecked(p[6]);
+  const nn = NN, n2 = nn * nn;
+  let chi2: f64 = 0;
+  if (moffat) {
+    const mb = -1 / unchecked(p[7]);
+    const kh = Math.pow(2, unchecked(p[7])) - 1;
+    for (let y = ya; y <= yb; y++) {
+      const row = y * w;
+      for (let x = xa; x <= xb; x++) {
+        const k = row + x;
+        const wk = unchecked(WT[k]);
+        if (wk == 0) { unchecked(PROF[k] = 0); continue; }
+        const base = ((y - ya) * bw + (x - xa)) * n2;
+        let e: f64 = 0;
+        for (let j = 0; j < nn; j++) {
+          const dy = <f64>y + unchecked(NT[j]) - y0;
+          let ej: f64 = 0;
+          for (let i = 0; i < nn; i++) {
+            const dx = <f64>x + unchecked(NT[i]) - x0;
+            const u = 1 + kh * (dx * (a * dx + b2 * dy) + c * dy * dy);
+            const lnu = Math.log(u);
+            const en = Math.exp(mb * lnu);
+            const q = base + j * nn + i;
+            unchecked(NE[q] = en); unchecked(NLU[q] = lnu); unchecked(NIU[q] = 1 / u);
+            ej += unchecked(NW[i]) * en;
+          }
+          e += unchecked(NW[j]) * ej;
+        }
+        unchecked(PROF[k] = e);
+        const r = unchecked(DAT[k]) - bg - amp * e;
+        chi2 += wk * r * r;
+      }
+    }
+    return chi2;
+  }
+  const ka = -LN2 * a, kc = -LN2 * c, kb = -LN2 * b2;
+  const separable = Math.abs(kb) * (Math.abs(<f64>xa - x0) + Math.abs(<f64>xb - x0) + 1) * (Math.abs(<f64>ya - y0) + Math.abs(<f64>yb - y0) + 1) < 600;
+  if (separable) for (let x = xa; x <= xb; x++) for (let i = 0; i < nn; i++) { const dx = <f64>x + unchecked(NT[i]) - x0; unchecked(CXN[(x - xa) * nn + i] = Math.exp(ka * dx * dx)); }
+  for (let y = ya; y <= yb; y++) {
+    const row = y * w;
+    for (let j = 0; j < nn; j++) {
+      const dy = <f64>y + unchecked(NT[j]) - y0;
+      let t: f64 = 0, ratio: f64 = 0;
+      if (separable) {
+        t = Math.exp(kc * dy * dy + kb * (<f64>xa - x0) * dy);
+        ratio = Math.exp(kb * dy);
+        for (let i = 0; i < nn; i++) unchecked(XN[i] = Math.exp(kb * unchecked(NT[i]) * dy));
+      }
+      for (let x = xa; x <= xb; x++) {
+        const k = row + x;
+        if (unchecked(WT[k]) != 0) {
+          const q0 = ((y - ya) * bw + (x - xa)) * n2 + j * nn;
+          for (let i = 0; i < nn; i++) {
+            let en: f64;
+            if (separable) en = unchecked(CXN[(x - xa) * nn + i]) * t * unchecked(XN[i]);
+            else { const dx = <f64>x + unchecked(NT[i]) - x0; en = Math.exp(dx * (ka * dx + kb * dy) + kc * dy * dy); }
+            unchecked(NE[q0 + i] = en);
+          }
+        }
+        t *= ratio;
+      }
+    }
+    for (let x = xa; x <= xb; x++) {
+      const k = row + x;
+      const wk = unchecked(WT[k]);
+      if (wk == 0) { unchecked(PROF[k] = 0); continue; }
+      const base = ((y - ya) * bw + (x - xa)) * n2;
+      let e: f64 = 0;
+      for (let j = 0; j < nn; j++) {
+        let ej: f64 = 0;
+        for (let i = 0; i < nn; i++) ej += unchecked(NW[i]) * unchecked(NE[base + j * nn + i]);
+        e += unchecked(NW[j]) * ej;
+      }
+      unchecked(PROF[k] = e);
+      const r = unchecked(DAT[k]) - bg - amp * e;
+      chi2 += wk * r * r;
+    }
+  }
+  return chi2;
+}
+
+/** normalEquations for the pixel-integrated model (../psf-fit.ts normalEquationsIntegrated), scalar. */
+function normalEquationsIntegrated(p: StaticArray<f64>, moffat: bool): void {
+  const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
+  const bw = xb - xa + 1;
+  const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
+  const a = unchecked(p[4]), b = unchecked(p[5]), c = unchecked(p[6]);
+  const m: i32 = moffat ? 8 : 7;
+  for (let i = 0; i < 64; i++) unchecked(H[i] = 0);
+  for (let i = 0; i < 8; i++) unchecked(G[i] = 0);
+  const beta = moffat ? 1 / unchecked(p[7]) : 0;
+  const kh = moffat ? Math.pow(2, unchecked(p[7])) - 1 : 0;
+  const dkk = moffat ? (-(kh + 1) * LN2) / (beta * beta * kh) : 0;
+  const qk = moffat ? 2 * amp * beta * kh : 2 * LN2 * amp;
+  const nn = NN, n2 = nn * nn;
+  for (let y = ya; y <= yb; y++) {
+    const row = y * w;
+    for (let x = xa; x <= xb; x++) {
+      const k = row + x;
+      const wk = unchecked(WT[k]);
+      if (wk == 0) continue;
+      const e = unchecked(PROF[k]);
+      const r = unchecked(DAT[k]) - bg - amp * e;
+      if (e < 1e-10) { unchecked(H[3 * m + 3] = unchecked(H[3 * m + 3]) + wk); unchecked(G[3] = unchecked(G[3]) + wk * r); continue; }
+      const base = ((y - ya) * bw + (x - xa)) * n2;
+      let j0: f64 = 0, j1: f64 = 0, j4: f64 = 0, j5: f64 = 0, j6: f64 = 0, j7: f64 = 0;
+      for (let jn = 0; jn < nn; jn++) {
+        const dy = <f64>y + unchecked(NT[jn]) - y0;
+        for (let i = 0; i < nn; i++) {
+          const dx = <f64>x + unchecked(NT[i]) - x0;
+          const q = base + jn * nn + i;
+          const wn = unchecked(NW[i]) * unchecked(NW[jn]);
+          const en = unchecked(NE[q]);
+          let wq: f64;
+          if (moffat) {
+            const iu = unchecked(NIU[q]);
+            wq = wn * qk * en * iu;
+            j7 += wn * amp * en * beta * beta * (unchecked(NLU[q]) + beta * dkk * (1 - iu));
+          } else {
+            wq = wn * qk * en;
+          }
+          j0 += wq * (a * dx + b * dy);
+          j1 += wq * (b * dx + c * dy);
+          j4 -= 0.5 * wq * dx * dx;
+          j5 -= wq * dx * dy;
+          j6 -= 0.5 * wq * dy * dy;
+        }
+      }
+      unchecked(JP[0] = j0); unchecked(JP[1] = j1); unchecked(JP[2] = e); unchecked(JP[3] = 1);
+      unchecked(JP[4] = j4); unchecked(JP[5] = j5); unchecked(JP[6] = j6); unchecked(JP[7] = j7);
+      const wr = wk * r;
+      for (let i = 0; i < m; i++) {
+        const ji = unchecked(JP[i]);
+        const wi = wk * ji;
+        unchecked(G[i] = unchecked(G[i]) + wr * ji);
+        for (let jj = i; jj < m; jj++) unchecked(H[i * m + jj] = unchecked(H[i * m + jj]) + wi * unchecked(JP[jj]));
+      }
+    }
+  }
+  for (let i = 0; i < m; i++) for (let jj = 0; jj < i; jj++) unchecked(H[i * m + jj] = unchecked(H[jj * m + i]));
+  HM = m;
+}
+
 function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
+  if (NN > 0) return chi2AtIntegrated(p, moffat);
   const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
   const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
   const a = unchecked(p[4]), b2 = 2 * unchecked(p[5]), c = unchecked(p[6]);
@@ -129,6 +304,7 @@ function chi2At(p: StaticArray<f64>, moffat: bool): f64 {
 // background terms, as in the TypeScript loop (its Jacobian masked to zero).
 
 function normalEquations(p: StaticArray<f64>, moffat: bool): void {
+  if (NN > 0) { normalEquationsIntegrated(p, moffat); return; }
   const w = GW, xa = BX0, xb = BX1, ya = BY0, yb = BY1;
   const x0 = unchecked(p[0]), y0 = unchecked(p[1]), amp = unchecked(p[2]), bg = unchecked(p[3]);
   const a = unchecked(p[4]), b = unchecked(p[5]), c = unchecked(p[6]);
@@ -269,19 +445,22 @@ function solveStep(m: i32, lambda: f64, frozen: i32): bool {
 /**
  * The fit of ../psf-fit.ts fitPsfWithSnr from its start values (the caller fills in missing
  * amplitude and background first). Stamp and variance in STAMP / VARI; constVar >= 0 means a
- * constant variance, < 0 the per-pixel one. Returns 0 when the fit ran (results in OUT), 1 when
- * it could not start (P in OUT, pixel count in OUT[75]).
+ * constant variance, < 0 the per-pixel one; nodes 3 or 4: the pixel-integrated model with that
+ * many Gauss-Legendre points per axis, otherwise the model at pixel centres. Returns 0 when the
+ * fit ran (results in OUT), 1 when it could not start (P in OUT, pixel count in OUT[75]).
  */
 export function fit(w: i32, h: i32, moffat: bool, maxIter: i32, radius: f64, constVar: f64,
-  ix: f64, iy: f64, ixx: f64, iyy: f64, ixy: f64, amp: f64, bg: f64): i32 {
+  ix: f64, iy: f64, ixx: f64, iyy: f64, ixy: f64, amp: f64, bg: f64, nodes: i32): i32 {
   const m: i32 = moffat ? 8 : 7;
   GW = w;
+  setNodes(nodes);
   const r2max = radius > 0 ? radius * radius : Infinity;
   const rw = Math.sqrt(r2max);
   const fin = isFinite(rw);
   const ya: i32 = fin ? <i32>Math.max(0, Math.floor(iy - rw)) : 0, yb: i32 = fin ? <i32>Math.min(<f64>(h - 1), Math.ceil(iy + rw)) : h - 1;
   const xa: i32 = fin ? <i32>Math.max(0, Math.floor(ix - rw)) : 0, xb: i32 = fin ? <i32>Math.min(<f64>(w - 1), Math.ceil(ix + rw)) : w - 1;
   BX0 = xa; BX1 = xb; BY0 = ya; BY1 = yb;
+  if ((xb - xa + 1) * (yb - ya + 1) * NN * NN > NODE_CAP || (xb - xa + 1) * NN > 4 * 1024) NN = 0; // as ../psf-fit.ts
   let n: i32 = 0;
   for (let y = ya; y <= yb; y++) {
     const dy2 = (<f64>y - iy) * (<f64>y - iy);
