@@ -8,6 +8,8 @@ import { WorkerPool, measureAll, parallelConvolve, parallelMaxima, parallelSky, 
 import type { Star, StarFlag } from './stars/types.ts';
 import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
+import { analysisWithSky, type SkyStepOptions } from './sky/step.ts';
+import type { AstrometrySection } from './sky/section.ts';
 
 export interface AnalyzeOptions {
   user?: UserOptics;
@@ -24,6 +26,10 @@ export interface AnalyzeOptions {
   maxStars?: number;
   signal?: AbortSignal;
   onProgress?: (stage: string, fraction: number) => void;
+  /** Place the frame on the sky after measuring (default true); false skips it. */
+  solve?: boolean;
+  /** Catalogue and search settings of the plate-solving step. */
+  sky?: SkyStepOptions;
 }
 
 export interface Analysis {
@@ -50,6 +56,8 @@ export interface Analysis {
   readonly stars: Star[];
   /** Seconds per stage. */
   readonly timings: Readonly<Record<string, number>>;
+  /** Where the frame is on the sky and what the lens does to geometry; absent when the step was skipped. */
+  readonly astrometry?: AstrometrySection;
 }
 
 /** Below this SNR a star is measured but kept out of the field statistics. */
@@ -127,7 +135,10 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
       onProgress: (f) => progress('measure', f),
     });
     lap('measure');
-    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
+    const result = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
+    if (opts.solve === false) return result;
+    progress('sky', 0);
+    return analysisWithSky(result, frame.meta, { ...opts.sky, signal: opts.signal });
   } finally {
     if (ownPool) void pool.close();
   }

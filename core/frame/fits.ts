@@ -260,6 +260,9 @@ const META_KEYS = [
   'BITPIX', 'BZERO', 'BSCALE', 'BLANK', 'NAXIS3',
 ];
 
+/** World-coordinate keywords: axes 1 and 2, SIP (A/B/AP/BP) and TPV/PV terms. */
+const WCS_KEY = /^(WCSAXES|CTYPE[12]|CUNIT[12]|CRPIX[12]|CRVAL[12]|CDELT[12]|CROTA2|CD[12]_[12]|PC[12]_[12]|LONPOLE|LATPOLE|RADESYS|EQUINOX|(A|B|AP|BP)_ORDER|(A|B|AP|BP)_\d+_\d+|PV[12]_\d+)$/;
+
 function positive(v: FitsCard['value'] | undefined): number | undefined {
   const x = typeof v === 'number' ? v : typeof v === 'string' && v.trim() !== '' ? Number(v) : NaN;
   return Number.isFinite(x) && x > 0 ? x : undefined;
@@ -384,6 +387,8 @@ export function decodeFits(bytes: Uint8Array): Frame {
     const v = merged.get(k);
     if (v !== undefined && v !== null) meta[k] = v;
   }
+  // the celestial WCS, for core/sky/wcs.ts (FITS WCS papers I and II; SIP; TPV)
+  for (const [k, v] of merged) if (v !== undefined && v !== null && WCS_KEY.test(k)) meta[k] = v;
   if (image !== primary) meta.HDU = image.index;
   if (image.tiled) {
     // The table's own BITPIX/NAXISn describe bytes of the table, not the image.

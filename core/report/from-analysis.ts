@@ -2,6 +2,7 @@ import type { Analysis } from '../analyze.ts';
 import { diagnose } from '../diagnose/index.ts';
 import { buildReport } from './build.ts';
 import type { Report } from './types.ts';
+import { skyFindings } from '../sky/finding.ts';
 
 /** The full single-frame report: measurement plus field map, diagnosis and findings. */
 export function reportFromAnalysis(a: Analysis, path: string): Report {
@@ -11,5 +12,5 @@ export function reportFromAnalysis(a: Analysis, path: string): Report {
     optics: a.optics,
     displayTopRow: a.frame.displayTopRow,
   });
-  return buildReport(a, path, { field, diagnosis, findings });
+  return buildReport(a, path, { field, diagnosis, findings: [...findings, ...skyFindings(a.astrometry)] });
 }

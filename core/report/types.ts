@@ -1,5 +1,6 @@
 import type { Optics } from '../frame/types.ts';
 import type { StarFlag } from '../stars/types.ts';
+import type { AstrometrySection } from '../sky/section.ts';
 
 export const REPORT_SCHEMA = 'skyloupe.report/1';
 
@@ -13,6 +14,11 @@ export interface ReportStar {
   moffatBeta: number | null;
   e1: number; e2: number;
   err: { x: number; y: number; fwhmPx: number; ellipticity: number; thetaDeg: number; hfdPx: number };
+  /** Sky position through the fitted lens model (present when the frame was placed on the sky), ICRS degrees. */
+  raDeg?: number | null;
+  decDeg?: number | null;
+  /** Catalogue number of the matched star ("HIP 91262"), null when not matched. */
+  catalogueId?: string | null;
 }
 
 export interface ZoneSummary {
@@ -64,5 +70,7 @@ export interface Report {
   diagnosis?: unknown;
   findings?: { code: string; severity: string; message: string; numbers?: Record<string, unknown> }[];
   field?: unknown;
+  /** Plate solution, lens model and distortion (absent when the step was skipped). */
+  astrometry?: AstrometrySection;
   timings: Record<string, number>;
 }

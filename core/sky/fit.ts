@@ -42,7 +42,8 @@ export interface FitData {
   x: Float64Array;
   y: Float64Array;
   sigma: Float64Array;
-  cat: Catalogue;
+  /** Sky directions (3 per entry) that Match.cat indexes: a catalogue's xyz. */
+  xyz: Float64Array;
 }
 
 function applyParams(m0: LensModel, p: Float64Array, free: FitFree): LensModel {
@@ -69,7 +70,7 @@ function residuals(m: LensModel, d: FitData, matches: readonly Match[], out: Flo
   let chi2 = 0;
   for (let k = 0; k < matches.length; k++) {
     const { star, cat } = matches[k];
-    const r = skyToPixel(m, [d.cat.xyz[3 * cat], d.cat.xyz[3 * cat + 1], d.cat.xyz[3 * cat + 2]], pt);
+    const r = skyToPixel(m, [d.xyz[3 * cat], d.xyz[3 * cat + 1], d.xyz[3 * cat + 2]], pt);
     const s = d.sigma[star];
     const ex = r ? (r[0] - d.x[star]) / s : 1e3, ey = r ? (r[1] - d.y[star]) / s : 1e3;
     out[2 * k] = ex; out[2 * k + 1] = ey;

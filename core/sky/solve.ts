@@ -37,6 +37,8 @@ export interface SolveOptions {
   catalogue?: Catalogue;
   /** Only this projection (default: chosen by the fit). */
   projection?: Projection;
+  /** Fit the optical centre: true = whenever the stars support it (default), false = keep it at the frame centre. */
+  fitCentre?: boolean;
   signal?: AbortSignal;
   /** Progress notes (development). */
   debug?: (note: string) => void;
@@ -278,7 +280,7 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
   const scaleRad = 1 / placed.model.fPx;
   const prep = prepare(stars, 600, catErrArcsec * ARCSEC / scaleRad);
   const tr = performance.now();
-  const refined = refine(cat, prep, placed, W, H, opt.projection);
+  const refined = refine(cat, prep, placed, W, H, opt.projection, opt.fitCentre ?? true);
   opt.debug?.(`refined in ${(performance.now() - tr).toFixed(0)} ms`);
   if (!refined) {
     return done('an asterism matched and passed the verification, but the lens model fit did not hold across the frame (too few stars matched); the placement is not reported');
@@ -319,7 +321,7 @@ interface GrowResult { fit: FitResult; matches: Match[] }
  */
 function grow(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: number, projection: Projection): GrowResult | null {
   const { x: fx, y: fy, n } = prep.fs;
-  const data: FitData = { x: fx, y: fy, sigma: prep.sigma, cat };
+  const data: FitData = { x: fx, y: fy, sigma: prep.sigma, xyz: cat.xyz };
   // the final match leaves out faint detections when there are enough others
   const good = prep.precise.reduce((c, v) => c + v, 0) >= 30 ? prep.precise : new Uint8Array(n).fill(1);
   let model: LensModel = { ...p.model, projection, };
@@ -393,8 +395,8 @@ function maxDistortionPercent(m: LensModel, W: number, H: number): number {
 /** Half-diagonal field angle beyond which the fisheye projections are tried too (narrower, they are alike). */
 const FISHEYE_TRY_DEG = 25;
 
-function refine(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: number, only?: Projection): Refined | null {
-  const data: FitData = { x: prep.fs.x, y: prep.fs.y, sigma: prep.sigma, cat };
+function refine(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: number, only: Projection | undefined, fitCentre: boolean): Refined | null {
+  const data: FitData = { x: prep.fs.x, y: prep.fs.y, sigma: prep.sigma, xyz: cat.xyz };
   const first = grow(cat, prep, p, W, H, only ?? 'rectilinear');
   const candidates: { projection: Projection; g: GrowResult }[] = [];
   if (first) candidates.push({ projection: only ?? 'rectilinear', g: first });
@@ -445,7 +447,7 @@ function refine(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: numb
     const red = Math.max(1, f2.chi2 / Math.max(1, f2.dof));
     if ((fit.chi2 - f2.chi2) / red > 9) { fit = f2; k2Fitted = true; }
   }
-  if (matches.length >= 30) {
+  if (fitCentre && matches.length >= 30) {
     const fc = fitLens(fit.model, data, matches, { k1: true, k2: k2Fitted, centre: true });
     const red = Math.max(1, fc.chi2 / Math.max(1, fc.dof));
     const rNorm = fit.model.rNorm;
