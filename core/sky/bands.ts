@@ -2,7 +2,8 @@
  * The asterism size bands (a factor sqrt(2) apart, as the index scales of Lang et al. 2010) and
  * their indexes, built on first use and kept for the life of the thread.
  */
-import { buildBandIndex, type BandIndex } from './asterism.ts';
+import { buildBandIndex, DEFAULT_INDEX, type BandIndex } from './asterism.ts';
+import { loadBand, saveBand } from './band-cache.ts';
 import type { Catalogue } from './catalogue.ts';
 import { DEG } from './sphere.ts';
 
@@ -23,7 +24,13 @@ export function bandIndex(cat: Catalogue, k: number): BandIndex {
   let b = m.get(k);
   if (!b) {
     const { dLo, dHi } = bandRange(k);
-    b = buildBandIndex(cat, dLo, dHi);
+    const o = DEFAULT_INDEX;
+    const key = cat.fingerprint ? `${cat.fingerprint}-${k}-${o.perCell}-${o.innerStars}-${o.perCellQuads}` : null;
+    b = (key ? loadBand(key, dLo, dHi) : null) ?? undefined;
+    if (!b) {
+      b = buildBandIndex(cat, dLo, dHi);
+      if (key) saveBand(key, b);
+    }
     m.set(k, b);
   }
   return b;

@@ -46,6 +46,8 @@ export interface Catalogue {
   /** First star of each cell; cellStart[cells] = count. */
   readonly cellStart: Uint32Array;
   readonly grid: CellGrid;
+  /** A short digest of the catalogue's bytes (keys the band cache); absent = not cached. */
+  readonly fingerprint?: string;
 }
 
 /** Declination rings cut into RA cells of about `cellDeg` square. */
@@ -196,7 +198,7 @@ export function decodeCatalogue(bytes: Uint8Array): Catalogue {
   const cellStart = new Uint32Array(g.cells + 1);
   for (let c = 0; c <= g.cells; c++) cellStart[c] = dv.getUint32(o + 4 * c, true);
   if (cellStart[g.cells] !== n) bad('cell table does not match the star count');
-  return { info: { ...info, cellDeg: g.cellDeg }, count: n, xyz, mag, id, cellStart, grid: g };
+  return { info: { ...info, cellDeg: g.cellDeg }, count: n, xyz, mag, id, cellStart, grid: g, fingerprint: fingerprintOf(bytes) };
 }
 
 /**
@@ -262,4 +264,14 @@ export function starRaDecDeg(cat: Catalogue, i: number): { raDeg: number; decDeg
   let ra = Math.atan2(y, x) / DEG;
   if (ra < 0) ra += 360;
   return { raDeg: ra, decDeg: Math.asin(Math.max(-1, Math.min(1, z))) / DEG };
+}
+
+/** FNV-1a over the bytes, twice with different seeds (a cache key, not a security measure). */
+export function fingerprintOf(bytes: Uint8Array): string {
+  let h1 = 0x811c9dc5, h2 = 0x01000193 ^ bytes.length;
+  for (let i = 0; i < bytes.length; i++) {
+    h1 = Math.imul(h1 ^ bytes[i], 0x01000193) >>> 0;
+    h2 = Math.imul(h2 ^ bytes[i], 0x5bd1e995) >>> 0;
+  }
+  return h1.toString(16).padStart(8, '0') + h2.toString(16).padStart(8, '0') + bytes.length.toString(16);
 }

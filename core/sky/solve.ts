@@ -65,6 +65,8 @@ const REJECT_LOG_ODDS = -20;
 /** Placements verified at most per frame (so the bound H / T stays below 3e-7). */
 const MAX_PLACEMENTS_HINT = 60_000;
 const MAX_PLACEMENTS_BLIND = 300_000;
+/** With a hint that fails, other scales are searched within this factor of it. */
+export const BLIND_NEAR_HINT = 2.5;
 /** Sky scales a blind search considers, arcsec per pixel. */
 export const BLIND_SCALE_ARCSEC = { lo: 0.2, hi: 2000 } as const;
 /** Catalogue positions: rounding, and an allowance for the unknown proper motions over ~25 years (0.6"). */
@@ -248,15 +250,21 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
     }
     if (!placement) search.hintFailed = true;
   }
+  // the search over other scales: every scale without a hint; with one, within a factor
+  // BLIND_NEAR_HINT of it (a wrong focal length in the header, a focal reducer, a binned camera)
+  const fAll = { lo: 206264.806 / BLIND_SCALE_ARCSEC.hi, hi: 206264.806 / BLIND_SCALE_ARCSEC.lo };
+  const fRange = hint ? { lo: Math.max(fAll.lo, 206264.806 / hint / BLIND_NEAR_HINT), hi: Math.min(fAll.hi, (206264.806 / hint) * BLIND_NEAR_HINT) } : fAll;
   if (!placement && (opt.blind ?? true)) {
     const max = search.placementsTried + MAX_PLACEMENTS_BLIND;
     // narrow fields (below 25 deg): one trial camera does for all (the codes barely depend on it)
-    const fNarrow = rNorm / Math.tan((10 * Math.PI) / 180 / 2);
     const fMin25 = rNorm / Math.tan((25 * Math.PI) / 180 / 2);
-    const fMax = 206264.806 / BLIND_SCALE_ARCSEC.lo;
-    if (pass(projections.includes('rectilinear') ? 'rectilinear' : projections[0], fNarrow, fMin25 * 0.9, fMax, max)) search.mode = 'blind';
+    if (fRange.hi > fMin25 * 0.9) {
+      const lo = Math.max(fRange.lo, fMin25 * 0.9), hi = fRange.hi;
+      const fTrial = Math.max(lo, Math.min(hi, rNorm / Math.tan((10 * Math.PI) / 180 / 2)));
+      if (pass(projections.includes('rectilinear') ? 'rectilinear' : projections[0], fTrial, lo, hi, max)) search.mode = 'blind';
+    }
     // wide fields: trial focal lengths 30 % apart, each projection
-    for (let f = fMin25; !placement && f > 206264.806 / BLIND_SCALE_ARCSEC.hi; f /= 1.3) {
+    for (let f = Math.min(fMin25, fRange.hi); !placement && f >= fRange.lo / 1.18; f /= 1.3) {
       for (const pr of projections) {
         const phi = 2 * angleOfRadiusSafe(pr, rNorm / f);
         if (!(phi < maxFieldAngle(pr) * 2 * 0.98) || (pr !== 'rectilinear' && phi < WIDE_FIELD)) continue;
@@ -269,7 +277,7 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
   search.seconds = (performance.now() - t0) / 1000;
   if (!placement) {
     const what = hint
-      ? (opt.blind ?? true) ? `no asterism of the ${Math.min(prep0.fs.n, QUAD_STARS)} brightest stars matches the catalogue at the expected scale (${hint.toPrecision(3)}"/px) or at any other`
+      ? (opt.blind ?? true) ? `no asterism of the ${Math.min(prep0.fs.n, QUAD_STARS)} brightest stars matches the catalogue at the expected scale (${hint.toPrecision(3)}"/px) or within a factor ${BLIND_NEAR_HINT} of it`
         : `no asterism of the ${Math.min(prep0.fs.n, QUAD_STARS)} brightest stars matches the catalogue at the expected scale (${hint.toPrecision(3)}"/px)`
       : `no asterism of the ${Math.min(prep0.fs.n, QUAD_STARS)} brightest stars matches the catalogue at any scale`;
     return done(`${what}; ${search.placementsTried} candidate placements were checked and none passed the verification. Cloud, a frame that is not the night sky, too few catalogue stars in the field (${cat.info.name} reaches about magnitude 9) or heavy distortion can cause this`);
