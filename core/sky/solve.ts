@@ -263,9 +263,12 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
       const fTrial = Math.max(lo, Math.min(hi, rNorm / Math.tan((10 * Math.PI) / 180 / 2)));
       if (pass(projections.includes('rectilinear') ? 'rectilinear' : projections[0], fTrial, lo, hi, max)) search.mode = 'blind';
     }
-    // wide fields: trial focal lengths 30 % apart, each projection
+    // wide fields: trial focal lengths 30 % apart, each projection (near a hint, the fisheyes only
+    // where the hinted field is very wide: a rectilinear header on a fisheye is not plausible)
+    const fisheyeNearHint = !hint || 2 * angleOfRadiusSafe('rectilinear', (rNorm * hint) / 206264.806) > (90 * Math.PI) / 180;
     for (let f = Math.min(fMin25, fRange.hi); !placement && f >= fRange.lo / 1.18; f /= 1.3) {
       for (const pr of projections) {
+        if (pr !== 'rectilinear' && !fisheyeNearHint) continue;
         const phi = 2 * angleOfRadiusSafe(pr, rNorm / f);
         if (!(phi < maxFieldAngle(pr) * 2 * 0.98) || (pr !== 'rectilinear' && phi < WIDE_FIELD)) continue;
         if (pass(pr, f, f / 1.18, f * 1.18, max)) { search.mode = 'blind'; break; }
@@ -323,67 +326,100 @@ interface Refined {
 
 interface GrowResult { fit: FitResult; matches: Match[] }
 
+/** What matching needs: the field stars, the catalogue stars that may fall in the frame, tolerances. */
+interface MatchCtx {
+  prep: Prepared;
+  data: FitData;
+  /** Field stars allowed in the final match (faint detections left out when there are enough others). */
+  good: Uint8Array;
+  limit: number;
+  candidates: number[];
+  s0: number;
+  W: number;
+  H: number;
+  cat: Catalogue;
+}
+
+function matchContext(cat: Catalogue, prep: Prepared, model: LensModel, W: number, H: number): MatchCtx {
+  const n = prep.fs.n;
+  const limit = Math.max(60, 2 * n);
+  // catalogue stars that may fall in the frame (brightest first), once: the frame's reach about
+  // the axis under this projection, with room for the distortion
+  const axis = matTVec(model.rot, [0, 0, 1]);
+  const reach = Math.min(maxFieldAngle(model.projection), angleOfRadiusSafe(model.projection, (1.3 * model.rNorm) / model.fPx) + 0.02);
+  return {
+    prep, cat, W, H, limit, s0: prep.sigma0,
+    data: { x: prep.fs.x, y: prep.fs.y, sigma: prep.sigma, xyz: cat.xyz },
+    good: prep.precise.reduce((c, v) => c + v, 0) >= 30 ? prep.precise : new Uint8Array(n).fill(1),
+    candidates: starsInCone(cat, axis, reach, 6 * limit),
+  };
+}
+
+/** Robust sigma of 2-D residuals: median distance / sqrt(2 ln 2) (the median of a circular Gaussian's radius). */
+function robustSigma(f: FitResult): number {
+  const r = Array.from(f.dx, (v, k) => Math.hypot(v, f.dy[k]));
+  return Math.max(0.05, median(r) / Math.sqrt(2 * Math.LN2));
+}
+
+/**
+ * Rounds over the whole frame: match within 4 robust sigmas of the residuals, drop matches beyond
+ * 3.5, refit the given terms.
+ */
+function polish(ctx: MatchCtx, model: LensModel, free: FitFree, sr: number, rounds = 3): GrowResult | null {
+  const { prep, data } = ctx;
+  const { x: fx, y: fy, n } = prep.fs;
+  let fit: FitResult | null = null;
+  let matches: Match[] = [];
+  for (let round = 0; round < rounds; round++) {
+    const proj = projectCatalogue(ctx.cat, model, ctx.W, ctx.H, ctx.limit, 2, ctx.candidates);
+    const tol = Math.max(1.5 * ctx.s0, 4 * sr);
+    matches = matchProjected(proj, fx, fy, n, () => tol, (i) => ctx.good[i] === 1);
+    if (matches.length < 5) return null;
+    const use = (m: number): FitFree => ({ k1: free.k1 && m >= 10, k2: free.k2 && m >= 16, centre: free.centre && m >= 30 });
+    fit = fitLens(model, data, matches, use(matches.length));
+    sr = robustSigma(fit);
+    const keep: Match[] = [];
+    matches.forEach((m, k) => { if (Math.hypot(fit!.dx[k], fit!.dy[k]) <= 3.5 * sr) keep.push(m); });
+    if (keep.length < matches.length && keep.length >= 5) {
+      matches = keep;
+      fit = fitLens(fit.model, data, matches, use(matches.length));
+      sr = robustSigma(fit);
+    }
+    model = fit.model;
+  }
+  return fit ? { fit, matches } : null;
+}
+
 /**
  * Grow the match outward from the asterism: match within a radius that widens by 1.6 each round,
- * refit, until the whole frame is covered and the match set is stable.
+ * refit, until the whole frame is covered and the match set is stable; then polish.
  */
 function grow(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: number, projection: Projection): GrowResult | null {
   const { x: fx, y: fy, n } = prep.fs;
-  const data: FitData = { x: fx, y: fy, sigma: prep.sigma, xyz: cat.xyz };
-  // the final match leaves out faint detections when there are enough others
-  const good = prep.precise.reduce((c, v) => c + v, 0) >= 30 ? prep.precise : new Uint8Array(n).fill(1);
-  let model: LensModel = { ...p.model, projection, };
+  let model: LensModel = { ...p.model, projection };
+  const ctx = matchContext(cat, prep, model, W, H);
   const far = Math.max(...[[0, 0], [W - 1, 0], [0, H - 1], [W - 1, H - 1]].map(([x, y]) => Math.hypot(x - p.xq, y - p.yq)));
   let rho = Math.max(2 * p.sizePx, 0.15 * Math.hypot(W, H));
   let fit: FitResult | null = null;
   let matches: Match[] = [];
-  const limit = Math.max(60, 2 * n);
   const s0 = prep.sigma0;
-  // catalogue stars that may fall in the frame (brightest first), once: the frame's reach about
-  // the axis under this projection, with room for the distortion
-  const axis = matTVec(model.rot, [0, 0, 1]);
-  const reach = Math.min(maxFieldAngle(projection), angleOfRadiusSafe(projection, (1.3 * model.rNorm) / model.fPx) + 0.02);
-  const candidates = starsInCone(cat, axis, reach, 6 * limit);
   let lastCount = -1;
   for (let round = 0; round < 16; round++) {
-    const proj = projectCatalogue(cat, model, W, H, limit, 2, candidates);
+    const proj = projectCatalogue(cat, model, W, H, ctx.limit, 2, ctx.candidates);
     const base = fit ? Math.max(3 * s0, 4 * fit.rmsPx) : 3 * s0;
     const slope = fit ? 0.01 : Math.hypot(0.02, s0 / p.sizePx);
     const xq = p.xq, yq = p.yq, r = rho;
     matches = matchProjected(proj, fx, fy, n, (x, y) => base + slope * Math.hypot(x - xq, y - yq), (i) => Math.hypot(fx[i] - xq, fy[i] - yq) <= r);
     if (matches.length < 4) return null;
     const free: FitFree = { k1: matches.length >= 10 && rho >= 0.5 * model.rNorm, k2: false, centre: false };
-    fit = fitLens(model, data, matches, free);
+    fit = fitLens(model, ctx.data, matches, free);
     model = fit.model;
     if (rho >= far && matches.length === lastCount) break;
     lastCount = rho >= far ? matches.length : -1;
     rho = Math.min(far, rho * 1.6);
   }
   if (!fit) return null;
-  // final rounds over the whole frame: match within 4 robust sigmas of the residuals (median
-  // distance / 1.177 for a circular Gaussian), drop beyond 3.5, refit
-  const robustSigma = (f: FitResult) => {
-    const r = Array.from(f.dx, (v, k) => Math.hypot(v, f.dy[k]));
-    return Math.max(0.05, median(r) / Math.sqrt(2 * Math.LN2));
-  };
-  let sr = robustSigma(fit);
-  for (let round = 0; round < 3; round++) {
-    const proj = projectCatalogue(cat, model, W, H, limit, 2, candidates);
-    const tol = Math.max(1.5 * s0, 4 * sr);
-    matches = matchProjected(proj, fx, fy, n, () => tol, (i) => good[i] === 1);
-    if (matches.length < 5) return null;
-    fit = fitLens(model, data, matches, { k1: matches.length >= 10, k2: false, centre: false });
-    sr = robustSigma(fit);
-    const keep: Match[] = [];
-    matches.forEach((m, k) => { if (Math.hypot(fit!.dx[k], fit!.dy[k]) <= 3.5 * sr) keep.push(m); });
-    if (keep.length < matches.length && keep.length >= 5) {
-      matches = keep;
-      fit = fitLens(fit.model, data, matches, { k1: matches.length >= 10, k2: false, centre: false });
-      sr = robustSigma(fit);
-    }
-    model = fit.model;
-  }
-  return { fit, matches };
+  return polish(ctx, model, { k1: true, k2: false, centre: false }, robustSigma(fit));
 }
 
 /** Largest |r_d / r - 1| over the frame, percent. */
@@ -443,27 +479,32 @@ function refine(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: numb
     if (t.maxDistortionPercent < pickD - 1e-9) { pick = i; pickD = t.maxDistortionPercent; }
   });
   const chosen = full[pick];
-  const matches = chosen.g.matches;
+  const ctx = matchContext(cat, prep, chosen.g.fit.model, W, H);
   // distortion terms: k1 when the stars allow it; k2 and a free optical centre only when they are
   // supported (chi^2 drop of 9, one parameter, and 11.8, two parameters: 3 sigma), judged in
-  // units of the reduced chi^2 of the larger model
-  let fit = chosen.g.fit;
+  // units of the reduced chi^2 of the larger model; after each, match and clip again
+  let cur: GrowResult = chosen.g;
   let k2Fitted = false, centreFitted = false;
-  if (matches.length >= 10) fit = fitLens(fit.model, data, matches, { k1: true, k2: false, centre: false });
-  if (matches.length >= 16) {
-    const f2 = fitLens(fit.model, data, matches, { k1: true, k2: true, centre: false });
+  if (cur.matches.length >= 16) {
+    const f2 = fitLens(cur.fit.model, data, cur.matches, { k1: true, k2: true, centre: false });
     const red = Math.max(1, f2.chi2 / Math.max(1, f2.dof));
-    if ((fit.chi2 - f2.chi2) / red > 9) { fit = f2; k2Fitted = true; }
-  }
-  if (fitCentre && matches.length >= 30) {
-    const fc = fitLens(fit.model, data, matches, { k1: true, k2: k2Fitted, centre: true });
-    const red = Math.max(1, fc.chi2 / Math.max(1, fc.dof));
-    const rNorm = fit.model.rNorm;
-    if ((fit.chi2 - fc.chi2) / red > 11.8 && (fc.err.cx ?? Infinity) < 0.1 * rNorm && (fc.err.cy ?? Infinity) < 0.1 * rNorm
-      && Math.hypot(fc.model.cx - (W - 1) / 2, fc.model.cy - (H - 1) / 2) < 0.5 * rNorm) {
-      fit = fc; centreFitted = true;
+    if ((cur.fit.chi2 - f2.chi2) / red > 9) {
+      const p2 = polish(ctx, f2.model, { k1: true, k2: true, centre: false }, robustSigma(f2));
+      if (p2) { cur = p2; k2Fitted = true; }
     }
   }
+  if (fitCentre && cur.matches.length >= 30) {
+    const fc = fitLens(cur.fit.model, data, cur.matches, { k1: true, k2: k2Fitted, centre: true });
+    const red = Math.max(1, fc.chi2 / Math.max(1, fc.dof));
+    const rNorm = cur.fit.model.rNorm;
+    if ((cur.fit.chi2 - fc.chi2) / red > 11.8 && (fc.err.cx ?? Infinity) < 0.1 * rNorm && (fc.err.cy ?? Infinity) < 0.1 * rNorm
+      && Math.hypot(fc.model.cx - (W - 1) / 2, fc.model.cy - (H - 1) / 2) < 0.5 * rNorm) {
+      const pc = polish(ctx, fc.model, { k1: true, k2: k2Fitted, centre: true }, robustSigma(fc));
+      if (pc && pc.fit.err.cx !== null) { cur = pc; centreFitted = true; }
+    }
+  }
+  let fit = cur.fit;
+  const matches = cur.matches;
   if (matches.length < 10) {
     // too few stars for the distortion: the similarity only
     fit = fitLens(fit.model, data, matches, { k1: false, k2: false, centre: false });
