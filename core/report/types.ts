@@ -1,6 +1,6 @@
 import type { Optics } from '../frame/types.ts';
 import type { StarFlag } from '../stars/types.ts';
-import type { AstrometrySection } from '../sky/section.ts';
+import type { AstrometrySection } from '../sky/section-types.ts';
 
 export const REPORT_SCHEMA = 'skyloupe.report/1';
 

@@ -10,3 +10,4 @@ export { cornersSvg, tileStats, starsInTile } from './corners.ts';
 export { stampSvg } from './stamp.ts';
 export { findingsHtml, findingsSvg, summaryHtml, numberLabel } from './panels.ts';
 export { compareTableHtml, sweepSvg } from './series.ts';
+export { distortionSvg, distortionFigureData, distortedPoint, niceExaggeration, astrometryTableHtml, type DistortionFigureData } from './distortion.ts';
