@@ -175,28 +175,30 @@ export function decodeCatalogue(bytes: Uint8Array): Catalogue {
   o += (4 - (o % 4)) % 4;
   const need = o + n * 4 + n * 4 + ((n * 2 + 3) & ~3) + n * 4 + (g.cells + 1) * 4;
   if (bytes.length < need) bad(`truncated: ${bytes.length} bytes, ${need} needed for ${n} stars`);
+  // aligned copies of the arrays (little-endian platforms read them directly)
+  const le = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+  const u32 = (off: number, count: number) => le ? new Uint32Array(bytes.slice(off, off + 4 * count).buffer) : Uint32Array.from({ length: count }, (_, i) => dv.getUint32(off + 4 * i, true));
+  const i32 = (off: number, count: number) => le ? new Int32Array(bytes.slice(off, off + 4 * count).buffer) : Int32Array.from({ length: count }, (_, i) => dv.getInt32(off + 4 * i, true));
+  const i16 = (off: number, count: number) => le ? new Int16Array(bytes.slice(off, off + 2 * count).buffer) : Int16Array.from({ length: count }, (_, i) => dv.getInt16(off + 2 * i, true));
+  const raU = u32(o, n), decI = i32(o + 4 * n, n);
+  o += 8 * n;
+  const magI = i16(o, n);
+  o += (n * 2 + 3) & ~3;
+  const id = u32(o, n);
+  o += 4 * n;
+  const cellStart = u32(o, g.cells + 1);
   const xyz = new Float64Array(3 * n);
   const mag = new Float32Array(n);
-  const id = new Uint32Array(n);
   const raScale = (2 * Math.PI) / 2 ** 32, decScale = Math.PI / 2 ** 32;
   for (let i = 0; i < n; i++) {
-    const ra = dv.getUint32(o + 4 * i, true) * raScale;
-    const dec = dv.getInt32(o + 4 * n + 4 * i, true) * decScale;
+    const ra = raU[i] * raScale, dec = decI[i] * decScale;
     const c = Math.cos(dec);
     xyz[3 * i] = c * Math.cos(ra);
     xyz[3 * i + 1] = c * Math.sin(ra);
     xyz[3 * i + 2] = Math.sin(dec);
-  }
-  o += 8 * n;
-  for (let i = 0; i < n; i++) {
-    const m = dv.getInt16(o + 2 * i, true);
+    const m = magI[i];
     mag[i] = m === 32767 ? MAG_UNKNOWN : m / 1000;
   }
-  o += (n * 2 + 3) & ~3;
-  for (let i = 0; i < n; i++) id[i] = dv.getUint32(o + 4 * i, true);
-  o += 4 * n;
-  const cellStart = new Uint32Array(g.cells + 1);
-  for (let c = 0; c <= g.cells; c++) cellStart[c] = dv.getUint32(o + 4 * c, true);
   if (cellStart[g.cells] !== n) bad('cell table does not match the star count');
   return { info: { ...info, cellDeg: g.cellDeg }, count: n, xyz, mag, id, cellStart, grid: g, fingerprint: fingerprintOf(bytes) };
 }
@@ -238,10 +240,13 @@ const rankCache = new WeakMap<Catalogue, { rank: Int32Array; byRank: Int32Array 
 export function brightnessRank(cat: Catalogue): { rank: Int32Array; byRank: Int32Array } {
   let r = rankCache.get(cat);
   if (!r) {
-    const byRank = Int32Array.from({ length: cat.count }, (_, i) => i);
-    const keys = new Float64Array(cat.count);
-    for (let i = 0; i < cat.count; i++) keys[i] = cat.mag[i];
-    byRank.sort((a, b) => keys[a] - keys[b] || a - b);
+    // one numeric sort of keys magnitude (milli-mag, as stored) x 2^24 + index: exact in doubles
+    const n = cat.count;
+    const keys = new Float64Array(n);
+    for (let i = 0; i < n; i++) keys[i] = (Math.round(cat.mag[i] * 1000) + 40000) * 16777216 + i;
+    keys.sort();
+    const byRank = new Int32Array(n);
+    for (let k = 0; k < n; k++) byRank[k] = keys[k] % 16777216;
     const rank = new Int32Array(cat.count);
     for (let k = 0; k < cat.count; k++) rank[byRank[k]] = k;
     rankCache.set(cat, (r = { rank, byRank }));

@@ -65,12 +65,14 @@ function initialParams(m0: LensModel, free: FitFree): Float64Array {
 }
 
 /** Weighted residuals; a star the model cannot image gets a large residual. */
+const v3 = new Float64Array(3);
 function residuals(m: LensModel, d: FitData, matches: readonly Match[], out: Float64Array): number {
   const pt: [number, number] = [0, 0];
   let chi2 = 0;
   for (let k = 0; k < matches.length; k++) {
     const { star, cat } = matches[k];
-    const r = skyToPixel(m, [d.xyz[3 * cat], d.xyz[3 * cat + 1], d.xyz[3 * cat + 2]], pt);
+    v3[0] = d.xyz[3 * cat]; v3[1] = d.xyz[3 * cat + 1]; v3[2] = d.xyz[3 * cat + 2];
+    const r = skyToPixel(m, v3, pt);
     const s = d.sigma[star];
     const ex = r ? (r[0] - d.x[star]) / s : 1e3, ey = r ? (r[1] - d.y[star]) / s : 1e3;
     out[2 * k] = ex; out[2 * k + 1] = ey;

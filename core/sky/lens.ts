@@ -8,7 +8,7 @@
  *   stereographic r = 2 f tan(theta / 2) (the usual fisheye mappings, e.g. Kannala & Brandt 2006,
  *   IEEE PAMI 28, 1335, table 1).
  */
-import { matTVec, matVec, normalize, type Mat3, type Vec3 } from './sphere.ts';
+import { matTVec, normalize, type Mat3, type Vec3 } from './sphere.ts';
 
 export type Projection = 'rectilinear' | 'fisheye-equidistant' | 'fisheye-equisolid' | 'fisheye-stereographic';
 export const PROJECTIONS: readonly Projection[] = ['rectilinear', 'fisheye-equidistant', 'fisheye-equisolid', 'fisheye-stereographic'];
@@ -83,16 +83,19 @@ export function undistortRadius(m: Pick<LensModel, 'k1' | 'k2' | 'rNorm'>, rd: n
 
 /** Pixel position of a sky direction (unit vector); null when the lens cannot image it. */
 export function skyToPixel(m: LensModel, v: ArrayLike<number>, out: [number, number] = [0, 0]): [number, number] | null {
-  const c = matVec(m.rot, v);
-  const s = Math.hypot(c[0], c[1]);
-  const theta = Math.atan2(s, c[2]);
+  const R = m.rot;
+  const c0 = R[0] * v[0] + R[1] * v[1] + R[2] * v[2];
+  const c1 = R[3] * v[0] + R[4] * v[1] + R[5] * v[2];
+  const c2 = R[6] * v[0] + R[7] * v[1] + R[8] * v[2];
+  const s = Math.sqrt(c0 * c0 + c1 * c1);
+  const theta = Math.atan2(s, c2);
   if (theta > maxFieldAngle(m.projection)) return null;
   const r = m.fPx * radiusOfAngle(m.projection, theta);
   const k = distortionFactor(m, r);
   if (s < 1e-15) { out[0] = m.cx; out[1] = m.cy; return out; }
   const rd = r * k;
-  out[0] = m.cx + (rd * c[0]) / s;
-  out[1] = m.cy + (m.parity * rd * c[1]) / s;
+  out[0] = m.cx + (rd * c0) / s;
+  out[1] = m.cy + (m.parity * rd * c1) / s;
   return out;
 }
 

@@ -256,24 +256,34 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
   const fRange = hint ? { lo: Math.max(fAll.lo, 206264.806 / hint / BLIND_NEAR_HINT), hi: Math.min(fAll.hi, (206264.806 / hint) * BLIND_NEAR_HINT) } : fAll;
   if (!placement && (opt.blind ?? true)) {
     const max = search.placementsTried + MAX_PLACEMENTS_BLIND;
-    // narrow fields (below 25 deg): one trial camera does for all (the codes barely depend on it)
-    const fMin25 = rNorm / Math.tan((25 * Math.PI) / 180 / 2);
-    if (fRange.hi > fMin25 * 0.9) {
-      const lo = Math.max(fRange.lo, fMin25 * 0.9), hi = fRange.hi;
-      const fTrial = Math.max(lo, Math.min(hi, rNorm / Math.tan((10 * Math.PI) / 180 / 2)));
-      if (pass(projections.includes('rectilinear') ? 'rectilinear' : projections[0], fTrial, lo, hi, max)) search.mode = 'blind';
-    }
+    // the passes, ordered by how far their field is from 20 deg (camera lenses and small
+    // telescopes first; the passes with the largest asterism bands are also the quickest):
     // wide fields: trial focal lengths 30 % apart, each projection (near a hint, the fisheyes only
-    // where the hinted field is very wide: a rectilinear header on a fisheye is not plausible)
+    // where the hinted field is very wide: a rectilinear header on a fisheye is not plausible);
+    // narrow fields (below 25 deg) in steps of a factor 2, where the codes barely depend on the
+    // trial camera, so one per step does
+    const fMin25 = rNorm / Math.tan((25 * Math.PI) / 180 / 2);
     const fisheyeNearHint = !hint || 2 * angleOfRadiusSafe('rectilinear', (rNorm * hint) / 206264.806) > (90 * Math.PI) / 180;
-    for (let f = Math.min(fMin25, fRange.hi); !placement && f >= fRange.lo / 1.18; f /= 1.3) {
+    const passes: { pr: Projection; f: number; lo: number; hi: number; phi: number }[] = [];
+    for (let f = Math.min(fMin25, fRange.hi); f >= fRange.lo / 1.18; f /= 1.3) {
       for (const pr of projections) {
         if (pr !== 'rectilinear' && !fisheyeNearHint) continue;
         const phi = 2 * angleOfRadiusSafe(pr, rNorm / f);
         if (!(phi < maxFieldAngle(pr) * 2 * 0.98) || (pr !== 'rectilinear' && phi < WIDE_FIELD)) continue;
-        if (pass(pr, f, f / 1.18, f * 1.18, max)) { search.mode = 'blind'; break; }
+        passes.push({ pr, f, lo: f / 1.18, hi: f * 1.18, phi });
       }
       if (2 * angleOfRadiusSafe('fisheye-equidistant', rNorm / f) > 2 * Math.PI) break;
+    }
+    const proj0 = projections.includes('rectilinear') ? 'rectilinear' : projections[0];
+    for (let fLo = Math.max(fRange.lo, fMin25 * 0.95); fLo < fRange.hi; fLo *= 2) {
+      const fHi = Math.min(fRange.hi, fLo * 2.1), f = Math.sqrt(fLo * fHi);
+      passes.push({ pr: proj0, f, lo: fLo, hi: fHi, phi: 2 * angleOfRadiusSafe(proj0, rNorm / f) });
+    }
+    const typical = (20 * Math.PI) / 180;
+    passes.sort((p, q) => Math.abs(Math.log(p.phi / typical)) - Math.abs(Math.log(q.phi / typical)));
+    for (const ps of passes) {
+      if (placement) break;
+      if (pass(ps.pr, ps.f, ps.lo, ps.hi, max)) search.mode = 'blind';
     }
   }
   search.falsePositiveBound = search.placementsTried * Math.exp(-ACCEPT_LOG_ODDS);
@@ -412,7 +422,7 @@ function grow(cat: Catalogue, prep: Prepared, p: Placement, W: number, H: number
     matches = matchProjected(proj, fx, fy, n, (x, y) => base + slope * Math.hypot(x - xq, y - yq), (i) => Math.hypot(fx[i] - xq, fy[i] - yq) <= r);
     if (matches.length < 4) return null;
     const free: FitFree = { k1: matches.length >= 10 && rho >= 0.5 * model.rNorm, k2: false, centre: false };
-    fit = fitLens(model, ctx.data, matches, free);
+    fit = fitLens(model, ctx.data, matches, free, 10);
     model = fit.model;
     if (rho >= far && matches.length === lastCount) break;
     lastCount = rho >= far ? matches.length : -1;

@@ -51,5 +51,5 @@ for (const withOptics of [true, false]) {
   const cold = Number(results[0].r.astrometry);
   const r0 = results[results.length - 1].r;
   process.stdout.write(`  ${withOptics ? 'with a scale hint' : 'blind (no optics)'}: solving adds ${warm[(warm.length - 1) >> 1].toFixed(2)} s (median of ${warm.length} warm runs, range ${warm[0].toFixed(2)}-${warm[warm.length - 1].toFixed(2)}), ${cold.toFixed(2)} s with an empty asterism cache; `
-    + `analysis total ${Number(r0.total).toFixed(2)} s; ${r0.solved ? `placed (${r0.mode}), ${r0.matched} stars matched, f ${Number(r0.focalLengthMm).toFixed(2)} mm, ${r0.pattern} ${Number(r0.cornerPercent).toFixed(2)} %` : 'NOT placed'}\n`);
+    + `analysis total ${Number(r0.total).toFixed(2)} s; ${r0.solved ? `placed (${r0.mode}), ${r0.matched} stars matched, ${r0.focalLengthMm === null ? 'focal length needs the pixel size' : `f ${Number(r0.focalLengthMm).toFixed(2)} mm`}, ${r0.pattern} ${Number(r0.cornerPercent).toFixed(2)} %` : 'NOT placed'}\n`);
 }
