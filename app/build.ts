@@ -55,12 +55,12 @@ export async function buildAll(): Promise<string[]> {
   await eb.build({ ...common, entryPoints: [path.join(APP, 'main', 'main.ts')], outfile: path.join(DIST, 'main.cjs'), format: 'cjs' });
   await eb.build({ ...common, entryPoints: [path.join(APP, 'preload', 'preload.ts')], outfile: path.join(DIST, 'preload.cjs'), format: 'cjs' });
   await eb.build({ ...common, entryPoints: [path.join(APP, 'engine', 'worker.ts')], outfile: path.join(DIST, 'analysis-worker.mjs'), format: 'esm', banner: esmBanner });
-  // the measurement pool looks for measure-worker.js beside the module that starts it (the bundle)
-  await eb.build({ ...common, entryPoints: [path.join(ROOT, 'core', 'stars', 'measure-worker.ts')], outfile: path.join(DIST, 'measure-worker.js'), format: 'esm', banner: esmBanner });
+  // the worker pool (core/parallel) looks for pool-worker.js beside the module that starts it (the bundle)
+  await eb.build({ ...common, entryPoints: [path.join(ROOT, 'core', 'pool-worker.ts')], outfile: path.join(DIST, 'pool-worker.js'), format: 'esm', banner: esmBanner });
   // and the raw decoder for its worker (plain JavaScript, loading libraw-wasm from node_modules)
   await copyFile(path.join(ROOT, 'core', 'frame', 'raw-worker.mjs'), path.join(DIST, 'raw-worker.mjs'));
   await writeFile(path.join(DIST, 'package.json'), JSON.stringify({ type: 'module' }) + '\n');
-  return ['renderer/app.js', 'renderer/app.css', 'main.cjs', 'preload.cjs', 'analysis-worker.mjs', 'measure-worker.js', 'raw-worker.mjs'].map((f) => path.join(DIST, f));
+  return ['renderer/app.js', 'renderer/app.css', 'main.cjs', 'preload.cjs', 'analysis-worker.mjs', 'pool-worker.js', 'raw-worker.mjs'].map((f) => path.join(DIST, f));
 }
 
 if (process.argv[1] && path.resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {

@@ -47,7 +47,7 @@ export async function ensureCli() {
   const common = { bundle: true, platform: 'node', format: 'esm', target: ['node20'], logLevel: 'silent', banner, external: ['sharp', 'esbuild', 'electron'] };
   await esbuild.build({ ...common, entryPoints: [path.join(ROOT, 'core', 'cli', 'main.ts')], outfile: path.join(tmp, 'skyloupe.mjs') });
   // the worker pool and the raw decoder look for their workers beside the module that starts them
-  await esbuild.build({ ...common, entryPoints: [path.join(ROOT, 'core', 'stars', 'measure-worker.ts')], outfile: path.join(tmp, 'measure-worker.js') });
+  await esbuild.build({ ...common, entryPoints: [path.join(ROOT, 'core', 'pool-worker.ts')], outfile: path.join(tmp, 'pool-worker.js') });
   copyFileSync(path.join(ROOT, 'core', 'frame', 'raw-worker.mjs'), path.join(tmp, 'raw-worker.mjs'));
   writeFileSync(path.join(tmp, 'package.json'), JSON.stringify({ type: 'module' }) + '\n');
   try {

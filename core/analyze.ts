@@ -1,10 +1,14 @@
 import type { CfaPattern, Frame, Optics } from './frame/types.ts';
 import { resolveOptics, type UserOptics } from './frame/optics.ts';
 import { toMeasurePlane } from './frame/plane.ts';
-import { detectStars, estimatePsfSigma, matchedFilterTaps, PSF_PEAK_SIGMA, DEFAULT_DETECT_SIGMA } from './stars/detect.ts';
-import { filteredNoiseFactor } from './image/convolve.ts';
+import { estimateSkyInBands, subtractSkyInBands } from './image/background.ts';
+import { convolveInBands, filteredNoiseFactor } from './image/convolve.ts';
+import { detectStars, estimatePsfSigma, localMaximaInBands, matchedFilterTaps, PSF_PEAK_SIGMA, DEFAULT_DETECT_SIGMA } from './stars/detect.ts';
 import { packStamps } from './stars/stamps.ts';
-import { WorkerPool, measureAll, parallelConvolve, parallelMaxima, parallelSky, parallelSubtract, sharedFloat32 } from './stars/measure-pool.ts';
+import { measureAll } from './stars/measure-batch.ts';
+import { shareWith } from './parallel/bands.ts';
+import type { WorkerPool } from './parallel/pool.ts';
+import { startPool } from './kernels.ts';
 import type { Star, StarFlag } from './stars/types.ts';
 import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
@@ -67,7 +71,7 @@ function checkAbort(signal?: AbortSignal): void {
   if (signal?.aborted) throw new SkyloupeError('cancelled', 'analysis cancelled');
 }
 
-/** The single-frame pipeline: plane -> sky -> detect -> measure, each step a pure function. */
+/** The single-frame pipeline: plane -> sky -> subtract -> filter -> detect -> measure, each step a pure function. */
 export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Promise<Analysis> {
   const timings: Record<string, number> = {};
   let t = performance.now();
@@ -83,29 +87,26 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
   checkFrameHasSignal(plane.data);
   // workers start now, so their start-up overlaps the serial steps
   const ownPool = !opts.pool;
-  const pool = opts.pool ?? await WorkerPool.start(opts.workers);
+  const pool = opts.pool ?? await startPool(opts.workers);
   try {
-    let data = plane.data;
-    if (pool.size > 0 && !(data.buffer instanceof SharedArrayBuffer)) {
-      data = sharedFloat32(data.length);
-      data.set(plane.data);
-    }
+    // each step below runs its own kernel in bands of rows (or chunks of stars) over the pool
+    const data = shareWith(pool, plane.data);
     lap('plane');
     progress('background', 0);
-    const sky = await parallelSky(pool, data, plane.width, plane.height);
+    const sky = await estimateSkyInBands(pool, data, plane.width, plane.height);
     lap('sky');
-    const { residual, missing } = await parallelSubtract(pool, data, sky);
+    const { residual, missing } = await subtractSkyInBands(pool, data, sky);
     lap('subtract');
     checkAbort(opts.signal);
     progress('detect', 0);
-    const bright = await parallelMaxima(pool, residual, plane.width, plane.height, sky, 1, PSF_PEAK_SIGMA);
+    const bright = await localMaximaInBands(pool, residual, plane.width, plane.height, sky, 1, PSF_PEAK_SIGMA);
     const psfSigmaPx = estimatePsfSigma(residual, plane.width, plane.height, sky, bright);
     lap('psf-size');
     const taps = matchedFilterTaps(psfSigmaPx);
-    const filtered = await parallelConvolve(pool, residual, plane.width, plane.height, taps);
+    const filtered = await convolveInBands(pool, residual, plane.width, plane.height, taps);
     lap('filter');
     const threshold = opts.threshold ?? DEFAULT_DETECT_SIGMA;
-    const peaks = await parallelMaxima(pool, filtered, plane.width, plane.height, sky, filteredNoiseFactor(taps), threshold);
+    const peaks = await localMaximaInBands(pool, filtered, plane.width, plane.height, sky, filteredNoiseFactor(taps), threshold);
     const det = detectStars(residual, data, missing, plane.width, plane.height, sky, {
       threshold,
       saturationLevel: plane.saturationLevel,

@@ -1,7 +1,7 @@
 import path from 'node:path';
 import { readFrame } from '../frame/read.ts';
 import { analyzeFrame } from '../analyze.ts';
-import { WorkerPool } from '../stars/measure-pool.ts';
+import { startPool } from '../kernels.ts';
 import { reportFromAnalysis } from '../report/from-analysis.ts';
 import { starsCsv } from '../report/csv.ts';
 import { reportHtml } from '../report/html.ts';
@@ -158,7 +158,7 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
   const catalogueFile = typeof values.catalogue === 'string' ? values.catalogue : null;
   const catalogue = catalogueFile ? await loadCatalogueFile(catalogueFile) : null;
   // the worker threads start while the frame is read
-  const pool = await WorkerPool.start(workers);
+  const pool = await startPool(workers);
   let analysis: Analysis;
   try {
     const frame = await readFrame(framePath);
@@ -214,7 +214,7 @@ function userOptics(values: Record<string, string | boolean | undefined>, comman
  */
 async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>): Promise<Analysis[]> {
   const out: Analysis[] = [];
-  const pool = await WorkerPool.start();
+  const pool = await startPool();
   try {
     for (const p of paths) out.push(await analyzeFrame(await readFrame(p), { user, pool, solve: false }));
   } finally {

@@ -10,12 +10,10 @@
  * Every size (tile count, tile table, heap extents, decompressed lengths) is checked before allocating.
  */
 import { unreadable } from '../errors.ts';
-import type { FitsCard } from './fits.ts';
+import type { FitsCard, FitsKeys } from './fits-card.ts';
 import { inflateTile } from './gzip.ts';
 import { MAX_FRAME_PIXELS } from './limits.ts';
 import { riceDecode } from './rice.ts';
-
-type Keys = ReadonlyMap<string, FitsCard['value']>;
 
 export interface TiledHeader {
   /** Image axes (ZNAXIS1, ZNAXIS2, ...). */
@@ -29,7 +27,7 @@ export interface TiledHeader {
 const BITPIX_OK = [8, 16, 32, 64, -32, -64];
 const SUPPORTED = new Set(['RICE_1', 'RICE_ONE', 'GZIP_1', 'GZIP_2', 'NOCOMPRESS']);
 
-function int(keys: Keys, key: string, dflt?: number): number {
+function int(keys: FitsKeys, key: string, dflt?: number): number {
   const v = keys.get(key);
   if (v === undefined || v === null) {
     if (dflt !== undefined) return dflt;
@@ -39,13 +37,13 @@ function int(keys: Keys, key: string, dflt?: number): number {
   return v;
 }
 
-function str(keys: Keys, key: string): string | undefined {
+function str(keys: FitsKeys, key: string): string | undefined {
   const v = keys.get(key);
   return typeof v === 'string' ? v.trim().toUpperCase() : undefined;
 }
 
 /** Reads and checks the image description of a ZIMAGE table; allocates nothing. */
-export function tiledImageHeader(keys: Keys): TiledHeader {
+export function tiledImageHeader(keys: FitsKeys): TiledHeader {
   const bitpix = int(keys, 'ZBITPIX');
   if (!BITPIX_OK.includes(bitpix)) throw unreadable(`invalid ZBITPIX = ${bitpix} (must be 8, 16, 32, 64, -32 or -64)`);
   const naxis = int(keys, 'ZNAXIS');
@@ -69,7 +67,7 @@ interface Column { name: string; offset: number; type: string; repeat: number; v
 const TYPE_BYTES: Record<string, number> = { L: 1, B: 1, A: 1, I: 2, J: 4, K: 8, E: 4, D: 8, C: 8, M: 16 };
 
 /** TFORMn (FITS 4.0 §7.3.1 Table 18): rT, or rPt(max)/rQt(max) for variable-length arrays. */
-function columns(keys: Keys, rowBytes: number): Column[] {
+function columns(keys: FitsKeys, rowBytes: number): Column[] {
   const n = int(keys, 'TFIELDS');
   if (n < 0 || n > 999) throw unreadable(`invalid TFIELDS = ${n}`);
   const cols: Column[] = [];
@@ -126,7 +124,7 @@ export interface TiledScaling { bzero: number; bscale: number; blank: number | n
  * first axis fastest.
  */
 export function decodeTiledImage(
-  bytes: Uint8Array, keys: Keys, dataOffset: number, dataBytes: number, hdr: TiledHeader, scaling: TiledScaling,
+  bytes: Uint8Array, keys: FitsKeys, dataOffset: number, dataBytes: number, hdr: TiledHeader, scaling: TiledScaling,
 ): Float32Array {
   const { axes, bitpix, compression } = hdr;
   const rowBytes = int(keys, 'NAXIS1');

@@ -4,7 +4,7 @@
  * closing quote at byte 20 or later), header padded with blanks and data with zeros to
  * 2880-byte blocks (§3.3), big-endian data, stored = (physical - BZERO) / BSCALE (§4.4.2.5).
  */
-import type { FitsCard } from './fits.ts';
+import type { FitsCard } from './fits-card.ts';
 
 const BLOCK = 2880;
 const RESERVED = new Set(['SIMPLE', 'BITPIX', 'NAXIS', 'NAXIS1', 'NAXIS2', 'EXTEND', 'BZERO', 'BSCALE', 'END']);

@@ -11,8 +11,9 @@ import { unreadable } from '../errors.ts';
 import { decodeTiledImage, tiledImageHeader, type TiledHeader } from './fits-tiled.ts';
 import { MAX_FRAME_PIXELS } from './limits.ts';
 import type { CfaPattern, Frame, OpticsHints } from './types.ts';
+import type { FitsCard, FitsKeys } from './fits-card.ts';
 
-export interface FitsCard { key: string; value: string | number | boolean | null; comment?: string }
+export type { FitsCard } from './fits-card.ts';
 
 const BLOCK = 2880;
 const CARD = 80;
@@ -275,7 +276,7 @@ function positive(v: FitsCard['value'] | undefined): number | undefined {
  * meaning is the pixel width after binning [CP, from memory]). PIXSIZE1 (µm) is a fallback
  * some programs write [CP, from memory].
  */
-export function fitsOpticsHints(keys: ReadonlyMap<string, FitsCard['value']>): OpticsHints | null {
+export function fitsOpticsHints(keys: FitsKeys): OpticsHints | null {
   const h: OpticsHints = { from: 'header' };
   const fl = positive(keys.get('FOCALLEN'));
   const px = positive(keys.get('XPIXSZ')) ?? positive(keys.get('PIXSIZE1'));
@@ -299,7 +300,7 @@ const CFA_OK: readonly CfaPattern[] = ['RGGB', 'BGGR', 'GRBG', 'GBRG'];
  * An odd offset shifts the pattern by one column or row. Which row order BAYERPAT assumes varies
  * between writers; the 2x2 superpixel sum used for measuring does not depend on the pattern.
  */
-function cfaFromKeys(keys: ReadonlyMap<string, FitsCard['value']>): CfaPattern | null {
+function cfaFromKeys(keys: FitsKeys): CfaPattern | null {
   const v = keys.get('BAYERPAT');
   if (typeof v !== 'string') return null;
   let p = v.trim().toUpperCase();

@@ -1,6 +1,8 @@
 import { clippedStats, median, type ClippedStats } from './stats.ts';
 import { lazyKernel } from '../wasm/instantiate.ts';
 import { SKY_STATS_WASM_BASE64 } from './wasm/sky-stats.wasm.ts';
+import { defineKernel, type KernelRunner } from '../parallel/kernel.ts';
+import { inBands, sharedFloat32, sharedUint8 } from '../parallel/bands.ts';
 
 /**
  * Sky model on a mesh of boxes (Bertin & Arnouts 1996, A&AS 117, 393, section 3.1):
@@ -108,6 +110,24 @@ const skyKernel = lazyKernel<SkyKernel>(SKY_STATS_WASM_BASE64, 'sky-stats', (m) 
 export function estimateSky(data: Float32Array, width: number, height: number, opts: BackgroundOptions = {}): SkyModel {
   const g = meshGeometry(width, height, opts);
   const { level, sigma } = meshRowStats(data, width, height, g, 0, g.meshH);
+  return skyFromMesh(width, height, g, level, sigma, opts);
+}
+
+/** meshRowStats as a pool kernel: mesh rows [my0, my1). */
+export const skyMeshRowsKernel = defineKernel('sky-mesh-rows',
+  (a: { data: Float32Array; width: number; height: number; geometry: MeshGeometry; my0: number; my1: number }) =>
+    meshRowStats(a.data, a.width, a.height, a.geometry, a.my0, a.my1));
+
+/** estimateSky with the mesh rows in bands over the pool (`data` on shared memory when it has workers). */
+export async function estimateSkyInBands(pool: KernelRunner, data: Float32Array, width: number, height: number, opts: BackgroundOptions = {}): Promise<SkyModel> {
+  const g = meshGeometry(width, height, opts);
+  const level = new Float32Array(g.meshW * g.meshH);
+  const sigma = new Float32Array(g.meshW * g.meshH);
+  await inBands(pool, g.meshH, async (my0, my1) => {
+    const r = await pool.run(skyMeshRowsKernel, { data, width, height, geometry: g, my0, my1 });
+    level.set(r.level, my0 * g.meshW);
+    sigma.set(r.sigma, my0 * g.meshW);
+  });
   return skyFromMesh(width, height, g, level, sigma, opts);
 }
 
@@ -270,4 +290,17 @@ export function subtractSkyRows(data: Float32Array, model: SkyModel, y0: number,
     }
   }
   return missing;
+}
+
+/** subtractSkyRows as a pool kernel: rows [y0, y1) into the shared `out` and `missing`; true if any pixel is missing. */
+export const subtractSkyRowsKernel = defineKernel('subtract-sky-rows',
+  (a: { data: Float32Array; sky: SkyModel; y0: number; y1: number; out: Float32Array; missing: Uint8Array }) =>
+    subtractSkyRows(a.data, a.sky, a.y0, a.y1, a.out, a.missing) !== null);
+
+/** subtractSky in bands of rows over the pool, into shared memory. */
+export async function subtractSkyInBands(pool: KernelRunner, data: Float32Array, sky: SkyModel): Promise<{ residual: Float32Array; missing: Uint8Array | null }> {
+  const residual = sharedFloat32(sky.width * sky.height);
+  const missing = sharedUint8(sky.width * sky.height);
+  const any = await inBands(pool, sky.height, (y0, y1) => pool.run(subtractSkyRowsKernel, { data, sky, y0, y1, out: residual, missing }));
+  return { residual, missing: any.some(Boolean) ? missing : null };
 }

@@ -1,5 +1,7 @@
 import { lazyKernel } from '../wasm/instantiate.ts';
 import { CONVOLVE_WASM_BASE64 } from './wasm/convolve.wasm.ts';
+import { defineKernel, type KernelRunner } from '../parallel/kernel.ts';
+import { inBands, sharedFloat32 } from '../parallel/bands.ts';
 
 /** Normalised 1-D Gaussian taps for sigma (px), radius ceil(nSigma * sigma). */
 export function gaussianTaps(sigma: number, nSigma = 3): Float32Array {
@@ -40,6 +42,18 @@ export function convolveBand(src: Float32Array, width: number, height: number, t
     if (ok) return;
   }
   convolveBandJs(src, width, height, taps, y0, y1, out);
+}
+
+/** convolveBand as a pool kernel: rows [y0, y1) into the shared `out`. */
+export const convolveRowsKernel = defineKernel('convolve-rows',
+  (a: { src: Float32Array; width: number; height: number; taps: Float32Array; y0: number; y1: number; out: Float32Array }) =>
+    convolveBand(a.src, a.width, a.height, a.taps, a.y0, a.y1, a.out));
+
+/** convolveSeparable in bands of rows over the pool, into shared memory. */
+export async function convolveInBands(pool: KernelRunner, src: Float32Array, width: number, height: number, taps: Float32Array): Promise<Float32Array> {
+  const out = sharedFloat32(width * height);
+  await inBands(pool, height, (y0, y1) => pool.run(convolveRowsKernel, { src, width, height, taps, y0, y1, out }));
+  return out;
 }
 
 /** convolveBand in TypeScript: the reference for the WebAssembly kernel, and the fallback. */

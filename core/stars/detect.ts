@@ -2,6 +2,8 @@ import type { Candidate, StarFlag } from './types.ts';
 import { convolveSeparable, filteredNoiseFactor, gaussianTaps } from '../image/convolve.ts';
 import { skyNoiseAt, type SkyModel } from '../image/background.ts';
 import { median } from '../image/stats.ts';
+import { defineKernel, type KernelRunner } from '../parallel/kernel.ts';
+import { inBands } from '../parallel/bands.ts';
 
 /** Default detection threshold, in filtered-noise units. */
 export const DEFAULT_DETECT_SIGMA = 5;
@@ -103,6 +105,20 @@ export function localMaximaRows(f: Float32Array, width: number, height: number, 
     }
   }
   return out.slice(0, n);
+}
+
+/** localMaximaRows as a pool kernel: rows [y0, y1). */
+export const localMaximaRowsKernel = defineKernel('local-maxima-rows',
+  (a: { f: Float32Array; width: number; height: number; sky: SkyModel; nf: number; threshold: number; y0: number; y1: number }) =>
+    localMaximaRows(a.f, a.width, a.height, a.sky, a.nf, a.threshold, a.y0, a.y1));
+
+/** localMaximaRows over the frame in bands over the pool, concatenated in raster order (as one call would give). */
+export async function localMaximaInBands(pool: KernelRunner, f: Float32Array, width: number, height: number, sky: SkyModel, nf: number, threshold: number): Promise<Float64Array> {
+  const parts = await inBands(pool, height, (y0, y1) => pool.run(localMaximaRowsKernel, { f, width, height, sky, nf, threshold, y0, y1 }));
+  const out = new Float64Array(parts.reduce((s, p) => s + p.length, 0));
+  let o = 0;
+  for (const p of parts) { out.set(p, o); o += p.length; }
+  return out;
 }
 
 function unpackPeaks(p: Float64Array): Peak[] {

@@ -4,12 +4,12 @@ import { readFrame } from '../../core/frame/read.ts';
 import { analyzeFrame } from '../../core/analyze.ts';
 import { buildReport } from '../../core/report/build.ts';
 import { diagnose } from '../../core/diagnose/index.ts';
-import { WorkerPool } from '../../core/stars/measure-pool.ts';
+import { startPool } from '../../core/kernels.ts';
 
 const file = process.argv[2];
 const t0 = performance.now();
 // as the CLI does: the worker threads start while the frame is read
-const pool = await WorkerPool.start();
+const pool = await startPool();
 const frame = await readFrame(file);
 const tRead = (performance.now() - t0) / 1000;
 const analysis = await analyzeFrame(frame, { pool });

@@ -11,7 +11,7 @@ import { SkyloupeError } from '../../core/errors.ts';
 import { decodeFits } from '../../core/frame/fits.ts';
 import { encodeFits } from '../../core/frame/fits-write.ts';
 import { readFrame } from '../../core/frame/read.ts';
-import type { FitsCard } from '../../core/frame/fits.ts';
+import type { FitsCard } from '../../core/frame/fits-card.ts';
 
 const root = fileURLToPath(new URL('../../', import.meta.url));
 const script = fileURLToPath(new URL('./fits-astropy-gen.py', import.meta.url));
