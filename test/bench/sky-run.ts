@@ -2,11 +2,11 @@
 // stage times (the plate-solving step is `astrometry`) and the outcome of the solve.
 import { readFrame } from '../../core/frame/read.ts';
 import { analyzeFrame } from '../../core/analyze.ts';
-import { WorkerPool } from '../../core/stars/measure-pool.ts';
+import { startPool } from '../../core/kernels.ts';
 
 const file = process.argv[2];
 const t0 = performance.now();
-const pool = await WorkerPool.start();
+const pool = await startPool();
 const frame = await readFrame(file);
 const a = await analyzeFrame(frame, { pool });
 void pool.close();
