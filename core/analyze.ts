@@ -138,7 +138,6 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('measure');
     const result = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
     if (opts.solve === false) return result;
-    progress('sky', 0);
     return analysisWithSky(result, frame.meta, { ...opts.sky, signal: opts.signal });
   } finally {
     if (ownPool) void pool.close();

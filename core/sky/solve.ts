@@ -44,8 +44,9 @@ export interface SolveOptions {
   debug?: (note: string) => void;
 }
 
-/** Field stars that form asterisms. */
+/** Field stars that form asterisms: at a hinted scale, and in each pass of the search over scales (fewer: many passes). */
 const QUAD_STARS = 30;
+const QUAD_STARS_BLIND = 22;
 /** Fields wider than this (diagonal, radians) also use asterisms of the stars near the centre, and the fisheye trial cameras. */
 const WIDE_FIELD = (40 * Math.PI) / 180;
 /** Largest asterisms used (radians): bigger ones suffer most from distortion. */
@@ -216,18 +217,19 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
   };
   let placement: Placement | null = null;
   /** One pass: a trial camera, a range of focal lengths, the bands for those fields. */
-  const pass = (projection: Projection, fPx: number, fLo: number, fHi: number, maxPlacements: number, bandCap?: number): boolean => {
+  const pass = (projection: Projection, fPx: number, fLo: number, fHi: number, maxPlacements: number, nStars = QUAD_STARS): boolean => {
     // field diagonal at the range ends
     const phiAt = (f: number) => 2 * angleOfRadiusSafe(projection, rNorm / f);
     const phiLo = phiAt(fHi), phiHi = phiAt(fLo);
-    const cap = bandCap ?? WIDE_BAND_CAP;
+    const cap = WIDE_BAND_CAP;
     const ks = bandsForField(Math.min(phiLo, cap / (2.5 * 0.18)), Math.min(phiHi, cap / 0.6));
     if (!ks.length) return false;
     const tb = performance.now();
     const bands = ks.map((k) => bandIndex(cat, k));
     opt.debug?.(`pass ${projection} f ${fPx.toFixed(0)} [${fLo.toFixed(0)}, ${fHi.toFixed(0)}] bands ${ks.join(',')} built in ${(performance.now() - tb).toFixed(0)} ms`);
     const wide = phiHi > WIDE_FIELD;
-    for (const quadStars of wide && central.length >= 6 ? [brightest, central] : [brightest]) {
+    for (const all of wide && central.length >= 6 ? [brightest, central] : [brightest]) {
+      const quadStars = all.slice(0, nStars);
       const left = maxPlacements - search.placementsTried;
       if (left <= 0 || opt.signal?.aborted) return false;
       const ts = performance.now();
@@ -283,7 +285,7 @@ export function solveSky(stars: readonly SolveStar[], opt: SolveOptions): SkyOut
     passes.sort((p, q) => Math.abs(Math.log(p.phi / typical)) - Math.abs(Math.log(q.phi / typical)));
     for (const ps of passes) {
       if (placement) break;
-      if (pass(ps.pr, ps.f, ps.lo, ps.hi, max)) search.mode = 'blind';
+      if (pass(ps.pr, ps.f, ps.lo, ps.hi, max, QUAD_STARS_BLIND)) search.mode = 'blind';
     }
   }
   search.falsePositiveBound = search.placementsTried * Math.exp(-ACCEPT_LOG_ODDS);

@@ -140,7 +140,12 @@ export function astrometryTableHtml(report: Report): string {
   const rows: [string, string][] = [];
   const c = a.centre;
   const n = (v: number | null | undefined, d: number) => (v === null || v === undefined || !Number.isFinite(v) ? '–' : v.toFixed(d));
-  const pm = (v: number | null | undefined, e: number | null | undefined, d: number) => (e === null || e === undefined ? n(v, d) : `${n(v, d)} ± ${n(e, d)}`);
+  // the error to two significant digits, the value to the same decimals
+  const pm = (v: number | null | undefined, e: number | null | undefined, d: number) => {
+    if (e === null || e === undefined || !Number.isFinite(e) || e <= 0) return n(v, d);
+    const dd = Math.max(d, Math.min(8, 1 - Math.floor(Math.log10(e))));
+    return `${n(v, dd)} ± ${e.toPrecision(2)}`;
+  };
   if (c) rows.push(['Frame centre', `${esc(sexa(c.raDeg, c.decDeg))} (RA ${n(c.raDeg, 4)}°, Dec ${n(c.decDeg, 4)}°, ICRS)`]);
   rows.push(['North', `${n(a.rotationDeg, 1)}° from +x toward +y; ${esc(a.parity ?? '–')} parity`]);
   rows.push(['Sky scale', `${pm(a.scaleArcsecPerPx, a.scaleErrArcsecPerPx, 4)} ″/px at the optical centre`]);
