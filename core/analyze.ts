@@ -138,7 +138,10 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('measure');
     const result = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
     if (opts.solve === false) return result;
-    return analysisWithSky(result, frame.meta, { ...opts.sky, signal: opts.signal });
+    checkAbort(opts.signal);
+    const placed = analysisWithSky(result, frame.meta, { ...opts.sky, signal: opts.signal });
+    checkAbort(opts.signal); // the solver stops its search when cancelled: that is no result
+    return placed;
   } finally {
     if (ownPool) void pool.close();
   }
