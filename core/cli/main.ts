@@ -13,6 +13,8 @@ import { simulateToFiles } from '../simulate/write.ts';
 import type { CfaPattern } from '../frame/types.ts';
 import { VERSION } from '../version.ts';
 import { runCompare, formatCompare, runSweep, formatSweep, runFocusPair, formatFocusPair } from '../series/index.ts';
+import { throughFocusCommand } from './through-focus.ts';
+import type { Frame } from '../frame/types.ts';
 import type { Analysis } from '../analyze.ts';
 import { catalogueCommand, loadCatalogueFile } from '../sky/cli.ts';
 
@@ -25,6 +27,7 @@ commands:
   compare A B           the same site and camera through two lenses or settings: per-zone verdicts
   sweep --at MM=FRAME   frames at known spacer distances: the best spacing
   focus-pair NEAR FAR   two frames a known focus step apart: the signed sensor tilt
+  through-focus --at UM=FRAME   a focus series: focus surface, tilt, curvature, astigmatism, spherical
   simulate SCENE OUT    render a synthetic frame (OUT.fits) and its truth (OUT.truth.json)
   catalogue OUT INDEX.. make a deeper star catalogue for plate solving from astrometry.net index files
   serve                 the desktop program's page in a browser, on 127.0.0.1
@@ -102,8 +105,9 @@ export async function main(argv: string[]): Promise<number> {
       case 'compare': return await compareCommand(rest, out);
       case 'sweep': return await sweepCommand(rest, out);
       case 'focus-pair': return await focusPairCommand(rest, out);
+      case 'through-focus': return await throughFocusCommand(rest, out, { analyzeAll, emit, userOptics, opticsOptions: OPTICS_OPTIONS, opticsHelp: OPTICS_HELP });
       case 'catalogue': return await catalogueCommand(rest, out);
-      default: throw usage(`unknown command "${cmd}" (commands: analyze, compare, sweep, focus-pair, simulate, catalogue, serve; see skyloupe --help)`);
+      default: throw usage(`unknown command "${cmd}" (commands: analyze, compare, sweep, focus-pair, through-focus, simulate, catalogue, serve; see skyloupe --help)`);
     }
   } catch (err) {
     const code = exitCodeFor(err);
@@ -212,11 +216,21 @@ function userOptics(values: Record<string, string | boolean | undefined>, comman
  * Read and analyse several frames one after the other (each uses all cores), through one
  * worker pool: its threads stay warm from frame to frame.
  */
-async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>): Promise<Analysis[]> {
+async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>, onFrame?: (frame: Frame, a: Analysis, k: number) => void): Promise<Analysis[]> {
   const out: Analysis[] = [];
   const pool = await startPool();
   try {
-    for (const p of paths) out.push(await analyzeFrame(await readFrame(p), { user, pool, solve: false }));
+    for (const [k, p] of paths.entries()) {
+      const frame = await readFrame(p);
+      try {
+        out.push(await analyzeFrame(frame, { user, pool, solve: false }));
+      } catch (err) {
+        // In a series, say which frame had no stars.
+        if (err instanceof SkyloupeError && !err.message.startsWith(p)) throw new SkyloupeError(err.kind, `${p}: ${err.message}`);
+        throw err;
+      }
+      onFrame?.(frame, out[k], k);
+    }
   } finally {
     void pool.close();
   }

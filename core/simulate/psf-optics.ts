@@ -14,6 +14,10 @@
  * (a disk of diameter |δ|/N when Δz = 0; sagittal focus δ_s = 0 -> radial line),
  * and the coma part S [ (3a^2 + b^2) û_c + 2ab v̂_c ] with a, b the pupil coordinates
  * along and across û_c: zone ρ maps to a circle of radius Sρ^2 centred 2Sρ^2 out.
+ * Spherical aberration: zone ρ crosses the axis L ρ^2 beyond the paraxial focus (L = marginal
+ * minus paraxial focus, along the light; L < 0 under-corrected), so its rays reach the sensor at
+ * -(δ - L ρ^2) P / 2N: the defocus term with δ -> δ - L ρ^2. At the paraxial focus the marginal
+ * ray misses by L/2N, so LSA = 2N x TSA (W040 = -L/(16 N^2) in the Hopkins form, optics.md §3).
  * Then seeing (Gaussian or Moffat), a uniform linear trail and field rotation.
  */
 import type { Rng } from './prng.ts';
@@ -45,6 +49,8 @@ export interface RayModel {
   radialY: number;
   /** Sagittal coma S, px (negative: flare toward -comaDir). */
   comaPx: number;
+  /** Spherical aberration as L/(2N p), px: the marginal ray's miss at the paraxial focus (TSA). */
+  sphericalPx: number;
   /** Unit vector from the coma centre to the star. */
   comaDirX: number;
   comaDirY: number;
@@ -63,7 +69,7 @@ export interface RayModel {
 
 export function emptyRayModel(): RayModel {
   return {
-    obstruction: 0, sagPx: 0, tanPx: 0, radialX: 1, radialY: 0, comaPx: 0, comaDirX: 1, comaDirY: 0,
+    obstruction: 0, sagPx: 0, tanPx: 0, radialX: 1, radialY: 0, comaPx: 0, comaDirX: 1, comaDirY: 0, sphericalPx: 0,
     seeing: SEEING_NONE, seeingSigmaPx: 0, seeingAlphaPx: 0, seeingBeta: 0,
     trailX: 0, trailY: 0, rotAngle: 0, rotArmX: 0, rotArmY: 0,
   };
@@ -104,7 +110,8 @@ export function sampleOffsets(m: RayModel, rng: Rng, n: number, dx: Float64Array
   const sag = m.sagPx, dtan = m.tanPx - m.sagPx;
   const ux = m.radialX, uy = m.radialY;
   const S = m.comaPx, cx = m.comaDirX, cy = m.comaDirY;
-  const hasOptics = sag !== 0 || dtan !== 0 || S !== 0;
+  const sph = m.sphericalPx;
+  const hasOptics = sag !== 0 || dtan !== 0 || S !== 0 || sph !== 0;
   const seeing = m.seeing;
   const sig = m.seeingSigmaPx;
   const alpha = m.seeingAlphaPx;
@@ -128,6 +135,10 @@ export function sampleOffsets(m: RayModel, rng: Rng, n: number, dx: Float64Array
       const pr = a * ux + b * uy;
       ox = sag * a + dtan * pr * ux;
       oy = sag * b + dtan * pr * uy;
+      if (sph !== 0) {
+        ox += sph * r2 * a;
+        oy += sph * r2 * b;
+      }
       if (S !== 0) {
         const pa = a * cx + b * cy; // along the coma direction
         const pb = -a * cy + b * cx; // across it
@@ -187,10 +198,12 @@ export interface OffsetMoments {
 }
 
 /**
- * Exact moments of the geometric part. Defocus/astigmatism (odd in P) and coma (even
- * in P) are uncorrelated over a pupil symmetric under P -> -P, and the time part is
+ * Exact moments of the geometric part. Defocus/astigmatism and spherical (odd in P) and coma
+ * (even in P) are uncorrelated over a pupil symmetric under P -> -P, and the time part is
  * independent of the pupil, so the covariances add. Uniform annulus: E[P P^T] =
- * (1+ε^2)/4 I, E[ρ^4] = (1+ε^2+ε^4)/3 [DER]; coma: mean S(1+ε^2) along û_c, variances
+ * (1+ε^2)/4 I, E[ρ^4] = (1+ε^2+ε^4)/3, E[ρ^6] = (1+ε^2+ε^4+ε^6)/4 [DER]; the spherical term
+ * s ρ^2 P adds s (M E[ρ^4] + s E[ρ^6]/2) per axis pair (cross term with M P, and its own);
+ * coma: mean S(1+ε^2) along û_c, variances
  * S^2 (4.5 E[ρ^4] - (1+ε^2)^2) along and 0.5 S^2 E[ρ^4] across (S^2/2, S^2/6 at ε = 0,
  * optics.md §1.5).
  */
@@ -205,6 +218,14 @@ export function geometricMoments(m: RayModel): OffsetMoments {
   let xx = pp * (m11 * m11 + m12 * m12);
   let yy = pp * (m12 * m12 + m22 * m22);
   let xy = pp * (m11 * m12 + m12 * m22);
+  // Spherical: cov(M P, s ρ^2 P) = s M E[ρ^2 P P^T] = s M E[ρ^4]/2, twice (both orders); own s^2 E[ρ^6]/2.
+  const sp = m.sphericalPx;
+  if (sp !== 0) {
+    const r6 = (1 + e2 + e2 * e2 + e2 * e2 * e2) / 4;
+    xx += sp * r4 * m11 + 0.5 * sp * sp * r6;
+    yy += sp * r4 * m22 + 0.5 * sp * sp * r6;
+    xy += sp * r4 * m12;
+  }
   // Coma.
   const S = m.comaPx, cx = m.comaDirX, cy = m.comaDirY;
   let meanX = S * (1 + e2) * cx;
@@ -269,6 +290,8 @@ export interface OpticsField {
   readonly astigmatismUmPerMm2: number;
   readonly astigmatismFromSpacingUmPerMm2: number;
   readonly comaUmPerMm: number;
+  /** Longitudinal spherical aberration at this f-number, µm (marginal minus paraxial focus; < 0 under-corrected). */
+  readonly sphericalUm: number;
   readonly seeing: number;
   readonly seeingSigmaPx: number;
   readonly seeingAlphaPx: number;
@@ -276,6 +299,15 @@ export interface OpticsField {
   readonly trailXPx: number;
   readonly trailYPx: number;
   readonly rotationAngleRad: number;
+}
+
+/**
+ * Longitudinal spherical aberration at f-number N of a lens that has lsaUm at refN: zone heights
+ * scale as refN/N and the zone focus shift as height^2, so LSA scales as (refN/N)^2 and the
+ * transverse aberration LSA/(2N) as (refN/N)^3 (optics.md §3, aperture scaling of spherical).
+ */
+export function effectiveSphericalUm(lsaUm: number, refN: number | null, N: number): number {
+  return refN === null ? lsaUm : lsaUm * (refN / N) ** 2;
 }
 
 export function opticsField(scene: Scene, psf: OpticsPsf): OpticsField {
@@ -306,6 +338,7 @@ export function opticsField(scene: Scene, psf: OpticsPsf): OpticsField {
     astigmatismUmPerMm2: a.astigmatismUmPerMm2 + kS,
     astigmatismFromSpacingUmPerMm2: kS,
     comaUmPerMm: a.comaUmPerMm,
+    sphericalUm: effectiveSphericalUm(a.sphericalUm, a.sphericalFNumber, scene.optics.fNumber),
     seeing,
     seeingSigmaPx: seeing === SEEING_GAUSSIAN ? s.fwhmPx / GAUSS_FWHM_PER_SIGMA : 0,
     seeingAlphaPx: seeing === SEEING_MOFFAT ? moffatAlpha(s.fwhmPx, s.beta) : 0,
@@ -357,6 +390,7 @@ export function localOptics(f: OpticsField, x: number, y: number): LocalOptics {
   if (h > 0) { rays.radialX = hx / h; rays.radialY = hy / h; }
   if (hc > 0) { rays.comaDirX = cxMm / hc; rays.comaDirY = cyMm / hc; }
   rays.comaPx = SUm / pUm;
+  rays.sphericalPx = f.sphericalUm / (2 * N * pUm);
   rays.seeing = f.seeing;
   rays.seeingSigmaPx = f.seeingSigmaPx;
   rays.seeingAlphaPx = f.seeingAlphaPx;

@@ -416,10 +416,36 @@ function renderOptics(
       centerPx: field.comaCenterPx,
       tail: field.comaUmPerMm > 0 ? 'outward' : field.comaUmPerMm < 0 ? 'inward' : 'none',
     },
+    spherical: sphericalTruth(field.sphericalUm, N, eps, psf.aberrations.sphericalUm, psf.aberrations.sphericalFNumber),
     seeing: { ...psf.seeing, sigmaPx: field.seeingSigmaPx || null, alphaPx: field.seeing === SEEING_MOFFAT ? field.seeingAlphaPx : null },
     trailing: { ...psf.trailing },
     rotation: { centerPx: field.rotationCenterPx, angleRad: psf.rotation.angleRad },
     fNumber: N,
     obstruction: eps,
+  };
+}
+
+/**
+ * Where the geometric foci of a spherically aberrated beam lie, from the paraxial focus (µm, along
+ * the light). Zone u = ρ^2 (uniform on [ε^2, 1]) crosses the axis at L u; the per-axis variance at
+ * δ is E[(δ - L u)^2 u]/(8N^2) [DER from the ray model], smallest at δ = L E[u^2]/E[u] (2L/3
+ * unobstructed); the least-confusion circle lies at 3L/4 with diameter TSA/2 (unobstructed;
+ * Smith, Modern Optical Engineering, spherical aberration [MEM]).
+ */
+function sphericalTruth(L: number, N: number, eps: number, given: number, refN: number | null): Record<string, unknown> {
+  const e2 = eps * eps;
+  const Eu = (1 + e2) / 2;
+  const Eu2 = (1 + e2 + e2 * e2) / 3;
+  return {
+    longitudinalUm: L,
+    givenUm: given,
+    givenAtFNumber: refN ?? N,
+    transverseUm: L / (2 * N),
+    kind: L < 0 ? 'under-corrected' : L > 0 ? 'over-corrected' : 'none',
+    minimumRmsFocusUm: (L * Eu2) / Eu,
+    midZoneFocusUm: L * (1 + e2) / 2,
+    leastConfusionFocusUm: eps === 0 ? 0.75 * L : null,
+    leastConfusionDiameterUm: eps === 0 ? Math.abs(L) / (4 * N) : null,
+    reference: 'focus errors (defocusCenterUm, tilt, curvature) are measured from the paraxial focus',
   };
 }

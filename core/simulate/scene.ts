@@ -123,6 +123,14 @@ export interface OpticsPsf {
     astigmatismUmPerMm2: number;
     /** Sagittal coma S at the sensor per mm of distance from the coma centre, µm/mm; negative = tail inward. Default 0. */
     comaUmPerMm: number;
+    /**
+     * Longitudinal spherical aberration, µm: the marginal rays' focus minus the paraxial focus,
+     * along the light (negative = under-corrected: marginal rays focus nearer the lens). Focus
+     * errors (defocusCenterUm, tilt, curvature) are then measured from the paraxial focus. Default 0.
+     */
+    sphericalUm: number;
+    /** The f-number at which sphericalUm holds (a stopped-down scene scales it by (ref/N)^2); null = the scene's. Default null. */
+    sphericalFNumber: number | null;
     /** Where coma vanishes (decentred optics), px; null = the optical centre. */
     comaCenterPx: { x: number; y: number } | null;
     /** Optical axis on the sensor, px; null = frame centre ((w-1)/2, (h-1)/2). */
@@ -359,7 +367,7 @@ function parsePsf(v: unknown): ScenePsf {
   const s = obj(o.seeing, 'psf.seeing', ['model', 'fwhmPx', 'beta']);
   const a = obj(o.aberrations, 'psf.aberrations', [
     'defocusCenterUm', 'tiltXUmAcross', 'tiltYUmAcross', 'curvatureRadiusMm', 'astigmatismUmPerMm2',
-    'comaUmPerMm', 'comaCenterPx', 'opticalCenterPx', 'spacingErrorMm',
+    'comaUmPerMm', 'comaCenterPx', 'opticalCenterPx', 'spacingErrorMm', 'sphericalUm', 'sphericalFNumber',
   ]);
   const t = obj(o.trailing, 'psf.trailing', ['lengthPx', 'angleDeg']);
   const r = obj(o.rotation, 'psf.rotation', ['centerPx', 'angleRad']);
@@ -383,6 +391,8 @@ function parsePsf(v: unknown): ScenePsf {
       curvatureRadiusMm,
       astigmatismUmPerMm2: num(a.astigmatismUmPerMm2, 'psf.aberrations.astigmatismUmPerMm2', 0, { min: -1000, max: 1000 }),
       comaUmPerMm: num(a.comaUmPerMm, 'psf.aberrations.comaUmPerMm', 0, { min: -1000, max: 1000 }),
+      sphericalUm: num(a.sphericalUm, 'psf.aberrations.sphericalUm', 0, { min: -U, max: U }),
+      sphericalFNumber: a.sphericalFNumber === undefined || a.sphericalFNumber === null ? null : num(a.sphericalFNumber, 'psf.aberrations.sphericalFNumber', 0, { min: 0.5, max: 1000 }),
       comaCenterPx: point(a.comaCenterPx, 'psf.aberrations.comaCenterPx'),
       opticalCenterPx: point(a.opticalCenterPx, 'psf.aberrations.opticalCenterPx'),
       spacingErrorMm: num(a.spacingErrorMm, 'psf.aberrations.spacingErrorMm', 0, { min: -100, max: 100 }),
