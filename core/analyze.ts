@@ -138,8 +138,11 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
     lap('measure');
     const result = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress);
     if (opts.solve === false) return result;
+    // the solve runs on this thread without awaiting: let a pending cancel arrive first, and after
+    await new Promise((r) => setTimeout(r, 0));
     checkAbort(opts.signal);
     const placed = analysisWithSky(result, frame.meta, { ...opts.sky, signal: opts.signal });
+    await new Promise((r) => setTimeout(r, 0));
     checkAbort(opts.signal); // the solver stops its search when cancelled: that is no result
     return placed;
   } finally {
