@@ -16,6 +16,8 @@ import { median } from './image/stats.ts';
 import { SkyloupeError } from './errors.ts';
 import { confirmRegion, findDataRegion, inDataRegion, scaleRegion, type DataRegion } from './image/data-region.ts';
 import { pixelShapeFromHeader, type PixelShape } from './diagnose/pixel-shape.ts';
+import { analysisWithSky, type SkyStepOptions } from './sky/step.ts';
+import type { AstrometrySection } from './sky/section.ts';
 
 export interface AnalyzeOptions {
   user?: UserOptics;
@@ -32,6 +34,10 @@ export interface AnalyzeOptions {
   maxStars?: number;
   signal?: AbortSignal;
   onProgress?: (stage: string, fraction: number) => void;
+  /** Place the frame on the sky after measuring (default true); false skips it. */
+  solve?: boolean;
+  /** Catalogue and search settings of the plate-solving step. */
+  sky?: SkyStepOptions;
 }
 
 export interface Analysis {
@@ -69,6 +75,8 @@ export interface Analysis {
   readonly stars: Star[];
   /** Seconds per stage. */
   readonly timings: Readonly<Record<string, number>>;
+  /** Where the frame is on the sky and what the lens does to geometry; absent when the step was skipped. */
+  readonly astrometry?: AstrometrySection;
 }
 
 /** Below this SNR a star is measured but kept out of the field statistics. */
@@ -157,7 +165,15 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
       onProgress: (f) => progress('measure', f),
     });
     lap('measure');
-    return finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData }, saturation);
+    const result = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData }, saturation);
+    if (opts.solve === false) return result;
+    // the solve runs on this thread without awaiting: let a pending cancel arrive first, and after
+    await new Promise((r) => setTimeout(r, 0));
+    checkAbort(opts.signal);
+    const placed = analysisWithSky(result, frame.meta, { ...opts.sky, signal: opts.signal });
+    await new Promise((r) => setTimeout(r, 0));
+    checkAbort(opts.signal); // the solver stops its search when cancelled: that is no result
+    return placed;
   } finally {
     if (ownPool) void pool.close();
   }

@@ -16,6 +16,7 @@ import { runCompare, formatCompare, runSweep, formatSweep, runFocusPair, formatF
 import { throughFocusCommand } from './through-focus.ts';
 import type { Frame } from '../frame/types.ts';
 import type { Analysis } from '../analyze.ts';
+import { catalogueCommand, loadCatalogueFile } from '../sky/cli.ts';
 
 const HELP_MAIN = `skyloupe ${VERSION}: star shapes across the field of a night-sky frame
 
@@ -28,6 +29,7 @@ commands:
   focus-pair NEAR FAR   two frames a known focus step apart: the signed sensor tilt
   through-focus --at UM=FRAME   a focus series: focus surface, tilt, curvature, astigmatism, spherical
   simulate SCENE OUT    render a synthetic frame (OUT.fits) and its truth (OUT.truth.json)
+  catalogue OUT INDEX.. make a deeper star catalogue for plate solving from astrometry.net index files
   serve                 the desktop program's page in a browser, on 127.0.0.1
 
 skyloupe COMMAND --help shows the options of a command.
@@ -48,6 +50,9 @@ options:
   --cfa PATTERN         treat the frame as a colour-filter mosaic: RGGB, BGGR, GRBG or GBRG
   --threshold SIGMA     detection threshold in filtered-noise units (default 5)
   --workers N           worker threads for the per-star fits (default: all cores; 0 = none)
+  --catalogue FILE      plate-solve with this star catalogue (made by skyloupe catalogue) instead
+                        of the bundled Hipparcos (deeper catalogues serve longer focal lengths)
+  --no-sky              do not place the frame on the sky (no plate solution, no distortion)
   --quiet               print nothing but errors
   -h, --help            this text`;
 
@@ -101,7 +106,8 @@ export async function main(argv: string[]): Promise<number> {
       case 'sweep': return await sweepCommand(rest, out);
       case 'focus-pair': return await focusPairCommand(rest, out);
       case 'through-focus': return await throughFocusCommand(rest, out, { analyzeAll, emit, userOptics, opticsOptions: OPTICS_OPTIONS, opticsHelp: OPTICS_HELP });
-      default: throw usage(`unknown command "${cmd}" (commands: analyze, compare, sweep, focus-pair, through-focus, simulate, serve; see skyloupe --help)`);
+      case 'catalogue': return await catalogueCommand(rest, out);
+      default: throw usage(`unknown command "${cmd}" (commands: analyze, compare, sweep, focus-pair, through-focus, simulate, catalogue, serve; see skyloupe --help)`);
     }
   } catch (err) {
     const code = exitCodeFor(err);
@@ -124,6 +130,8 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
     threshold: { type: 'string' },
     workers: { type: 'string' },
     quiet: { type: 'boolean' },
+    catalogue: { type: 'string' },
+    'no-sky': { type: 'boolean' },
   }, 'analyze');
   if (values.help) { out(HELP_ANALYZE); return 0; }
   if (positionals.length !== 1) throw usage('analyze: give exactly one FRAME (see skyloupe analyze --help)');
@@ -150,12 +158,15 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
       throw usage(`analyze: --${opt} would overwrite the input frame; choose another file`);
     }
   }
+  if (values['no-sky'] && values.catalogue !== undefined) throw usage('analyze: --catalogue has no use with --no-sky');
+  const catalogueFile = typeof values.catalogue === 'string' ? values.catalogue : null;
+  const catalogue = catalogueFile ? await loadCatalogueFile(catalogueFile) : null;
   // the worker threads start while the frame is read
   const pool = await startPool(workers);
   let analysis: Analysis;
   try {
     const frame = await readFrame(framePath);
-    analysis = await analyzeFrame(frame, { user, cfa, threshold, pool });
+    analysis = await analyzeFrame(frame, { user, cfa, threshold, pool, solve: !values['no-sky'], sky: { catalogue, catalogueFile } });
   } finally {
     void pool.close();
   }
@@ -212,7 +223,7 @@ async function analyzeAll(paths: string[], user: ReturnType<typeof userOptics>, 
     for (const [k, p] of paths.entries()) {
       const frame = await readFrame(p);
       try {
-        out.push(await analyzeFrame(frame, { user, pool }));
+        out.push(await analyzeFrame(frame, { user, pool, solve: false }));
       } catch (err) {
         // In a series, say which frame had no stars.
         if (err instanceof SkyloupeError && !err.message.startsWith(p)) throw new SkyloupeError(err.kind, `${p}: ${err.message}`);

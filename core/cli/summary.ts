@@ -1,6 +1,7 @@
 import type { Report, ZoneSummary } from '../report/types.ts';
 import { formatFindings } from '../diagnose/format.ts';
 import { saturationText } from '../frame/saturation.ts';
+import { skySummaryLines } from '../sky/words.ts';
 
 const f = (v: number | null, digits = 2) => (v === null ? 'n/a' : v.toFixed(digits));
 
@@ -38,6 +39,7 @@ export function formatSummary(r: Report): string {
   if (s.center.medianFwhmPx && s.corners.medianFwhmPx) {
     lines.push(`corner/centre FWHM ratio ${(s.corners.medianFwhmPx / s.center.medianFwhmPx).toFixed(2)}`);
   }
+  if (r.astrometry) lines.push(...skySummaryLines(r.astrometry));
   if (!plate) lines.push('tip: give --focal-length and --pixel-size to get arcseconds and micrometres');
   if (r.findings && r.findings.length) {
     lines.push('');

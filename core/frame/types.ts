@@ -1,5 +1,5 @@
 /** Where an optics value came from; `null` when nobody gave it. */
-export type OpticsSource = 'header' | 'exif' | 'user' | 'derived' | null;
+export type OpticsSource = 'header' | 'exif' | 'user' | 'derived' | 'plate-solve' | null;
 
 export interface Optics {
   readonly focalLengthMm: number | null;

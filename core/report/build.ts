@@ -3,6 +3,9 @@ import type { Star } from '../stars/types.ts';
 import { median } from '../image/stats.ts';
 import { REPORT_SCHEMA, type Report, type ReportStar, type ZoneSummary } from './types.ts';
 import { VERSION } from '../version.ts';
+import { sectionModel } from '../sky/section.ts';
+import { pixelToSky } from '../sky/lens.ts';
+import { vecToRadec } from '../sky/sphere.ts';
 
 const r4 = (v: number) => (Number.isFinite(v) ? Math.round(v * 1e4) / 1e4 : null);
 
@@ -113,8 +116,23 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
       center: zoneSummary('center', center, plate),
       corners: zoneSummary('corners', corners, plate),
     },
-    stars: a.stars.map(reportStar),
+    stars: withSky(a.stars.map(reportStar), a),
     ...extra,
+    ...(a.astrometry ? { astrometry: a.astrometry } : {}),
     timings: a.timings,
   };
+}
+
+/** RA/Dec of every star through the fitted lens model, and the catalogue number of matched ones. */
+function withSky(stars: ReportStar[], a: Analysis): ReportStar[] {
+  const s = a.astrometry;
+  if (!s) return stars;
+  const model = sectionModel(s);
+  const ids = new Map(s.matches.map((m) => [m.star, m.catalogueId]));
+  const deg = 180 / Math.PI;
+  return stars.map((st, i) => {
+    const v = model ? pixelToSky(model, a.stars[i].x, a.stars[i].y) : null;
+    const rd = v ? vecToRadec(v) : null;
+    return { ...st, raDeg: rd ? Math.round(rd.ra * deg * 1e6) / 1e6 : null, decDeg: rd ? Math.round(rd.dec * deg * 1e6) / 1e6 : null, catalogueId: ids.get(i) ?? null };
+  });
 }

@@ -13,6 +13,7 @@ import { sizeSvg } from './svg/size.ts';
 import { focusSvg } from './svg/focus.ts';
 import { cornersSvg } from './svg/corners.ts';
 import { findingsHtml, summaryHtml } from './svg/panels.ts';
+import { astrometryTableHtml, distortionFigureData, distortionSvg } from './svg/distortion.ts';
 
 export interface HtmlReportOptions {
   /** Display name of the frame (default: the report's path). */
@@ -60,6 +61,11 @@ export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string
     + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
     + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), 'Ellipticity 1 − b/a from the moment field, with contours.'));
   parts.push('<h2>Focus plane</h2>' + fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
+  if (report.astrometry) {
+    const dd = distortionFigureData(report);
+    parts.push('<h2>Sky position and lens geometry</h2>' + astrometryTableHtml(report)
+      + (dd ? fig(distortionSvg(dd, { theme, width: 900 }), `A square grid as the lens draws it (blue) over the ideal grid (grey), and the measured shift of each matched star from where a distortion-free lens would put it; all shifts drawn ${dd.exaggeration}x larger. The ring marks the optical centre.`) : ''));
+  }
   parts.push('<h2>Corners</h2>' + fig(cornersSvg(report, opts.tiles ?? null, { theme, width: 900 }), 'The four corners and the centre at one zoom; ellipses are twice the fitted FWHM.'));
   return `<!doctype html>
 <html lang="en">

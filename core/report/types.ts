@@ -2,6 +2,7 @@ import type { Optics } from '../frame/types.ts';
 import type { StarFlag } from '../stars/types.ts';
 import type { DataRegion } from '../image/data-region.ts';
 import type { PixelShape } from '../diagnose/pixel-shape.ts';
+import type { AstrometrySection } from '../sky/section-types.ts';
 
 export const REPORT_SCHEMA = 'skyloupe.report/1';
 
@@ -15,6 +16,11 @@ export interface ReportStar {
   moffatBeta: number | null;
   e1: number; e2: number;
   err: { x: number; y: number; fwhmPx: number; ellipticity: number; thetaDeg: number; hfdPx: number };
+  /** Sky position through the fitted lens model (present when the frame was placed on the sky), ICRS degrees. */
+  raDeg?: number | null;
+  decDeg?: number | null;
+  /** Catalogue number of the matched star ("HIP 91262"), null when not matched. */
+  catalogueId?: string | null;
 }
 
 export interface ZoneSummary {
@@ -78,5 +84,7 @@ export interface Report {
   diagnosis?: unknown;
   findings?: { code: string; severity: string; message: string; numbers?: Record<string, unknown> }[];
   field?: unknown;
+  /** Plate solution, lens model and distortion (absent when the step was skipped). */
+  astrometry?: AstrometrySection;
   timings: Record<string, number>;
 }

@@ -47,7 +47,7 @@ for (const s of sizes) {
   if (runs.length === 0) continue;
   const totals = runs.map((r) => r.total).sort((a, b) => a - b);
   const r = [...runs].sort((a, b) => a.total - b.total)[(runs.length - 1) >> 1];
-  const stages = ['read', 'plane', 'sky', 'subtract', 'psf-size', 'filter', 'detect', 'stamps', 'measure', 'finish', 'report']
+  const stages = ['read', 'plane', 'sky', 'subtract', 'psf-size', 'filter', 'detect', 'stamps', 'measure', 'finish', 'astrometry', 'report']
     .map((k) => `${k} ${Number(r[k] ?? 0).toFixed(3)}`).join(', ');
   const diag = runs.map((x) => x.diagnose).sort((a, b) => a - b);
   process.stdout.write(

@@ -10,4 +10,5 @@ export { cornersSvg, tileStats, starsInTile } from './corners.ts';
 export { stampSvg } from './stamp.ts';
 export { findingsHtml, findingsSvg, summaryHtml, numberLabel } from './panels.ts';
 export { compareTableHtml, sweepSvg } from './series.ts';
+export { distortionSvg, distortionFigureData, distortedPoint, niceExaggeration, astrometryTableHtml, type DistortionFigureData } from './distortion.ts';
 export { focusCurvesSvg, focusSurfaceSvg, stampStripSvg, focusCurvesData, focusSurfaceData, stampStripData, type FocusCurvesData, type SurfaceData, type StampStripData, type CurveCell, type StampFrame, type ThroughFocusLike } from './through-focus.ts';
