@@ -2,26 +2,11 @@
  * Types of the report's `astrometry` section, apart from the code that builds it (so the page's
  * figures can use them without the solver).
  */
-import type { DistortionPattern } from './distortion.ts';
+import type { DistortionSummary } from './distortion.ts';
 import type { Projection } from './lens.ts';
 
-export interface AstrometryDistortion {
-  k1: number;
-  k2: number;
-  k1Err: number | null;
-  /** null when k2 was not fitted (not supported by the stars); k2 is then 0. */
-  k2Err: number | null;
-  pattern: DistortionPattern;
-  /** 100 (r_d - r) / r at the corner distance (half the diagonal from the optical centre); negative = barrel. */
-  cornerPercent: number;
-  cornerPercentErr: number | null;
-  /** The same at the edge midpoints' distances: x = half the width, y = half the height. */
-  edgePercent: { x: number; y: number };
-  /** Largest shift of a star by the distortion anywhere in the frame, px. */
-  maxShiftPx: number;
-  /** Mustache: where the distortion turns, as a fraction of the corner distance; null otherwise. */
-  turnFraction: number | null;
-}
+/** The distortion as the report carries it: the fit's summary without its internal significance. */
+export type AstrometryDistortion = Omit<DistortionSummary, 'significance'>;
 
 export interface AstrometryMatch {
   /** Index into report.stars. */

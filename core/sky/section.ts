@@ -6,7 +6,6 @@
  */
 import type { Optics } from '../frame/types.ts';
 import { catalogueId, starName, starRaDecDeg, type Catalogue } from './catalogue.ts';
-import type { DistortionPattern } from './distortion.ts';
 import { centreScaleArcsecPerPx, pixelToSky, skyToPixel, type LensModel, type Projection } from './lens.ts';
 import type { SkyOutcome } from './solve.ts';
 import { DEG, tangentBasis, vecToRadec } from './sphere.ts';
@@ -31,7 +30,7 @@ export function northAngleDeg(m: LensModel, x: number, y: number): number | null
   return a;
 }
 
-export function distortionSection(d: { k1: number; k2: number; k1Err: number | null; k2Err: number | null; pattern: DistortionPattern; cornerPercent: number; cornerPercentErr: number | null; edgePercent: { x: number; y: number }; maxShiftPx: number; turnFraction: number | null }): AstrometryDistortion {
+export function distortionSection(d: AstrometryDistortion): AstrometryDistortion {
   return {
     k1: r(d.k1, 6), k2: r(d.k2, 6), k1Err: rn(d.k1Err, 6), k2Err: rn(d.k2Err, 6),
     pattern: d.pattern,
