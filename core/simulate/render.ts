@@ -13,12 +13,18 @@ import {
 import {
   geometricMoments, localOptics, opticsField, sampleOffsets, seeingVariance, SEEING_MOFFAT,
 } from './psf-optics.ts';
-import { parseScene, SPACING_ASTIGMATISM, SPACING_CURVATURE, type AnalyticPsf, type OpticsPsf, type Scene } from './scene.ts';
+import { isSkyStars, parseScene, SPACING_ASTIGMATISM, SPACING_CURVATURE, type AnalyticPsf, type OpticsPsf, type Scene } from './scene.ts';
+import { skyStarsOfScene, skyTruth, type SkyStars } from './sky-scene.ts';
 import { generateStars, type PlacedStar } from './stars.ts';
 
 export interface SimTruthStar {
   /** Index in the scene's star list (explicit or generated order). */
   id: number;
+  /** Catalogue stars (scene stars with `pointing`): catalogue number, magnitude and ICRS position. */
+  catalogueId?: string;
+  mag?: number;
+  raDeg?: number;
+  decDeg?: number;
   /** True intensity centroid of the star (expected, before pixelisation), storage px. */
   x: number;
   y: number;
@@ -123,9 +129,14 @@ export function renderScene(input: Scene): SimResult {
   const gain = scene.noise.gain;
   const frameCentre = { x: (W - 1) / 2, y: (H - 1) / 2 };
 
-  const placed: PlacedStar[] = Array.isArray(scene.stars)
-    ? scene.stars.map((s) => ({ x: s.x, y: s.y, fluxE: s.fluxE }))
-    : generateStars(scene.stars, W, H, new Rng(streamSeed(seed, 1)));
+  const st = scene.stars;
+  let sky: SkyStars | null = null;
+  let placed: PlacedStar[];
+  if (isSkyStars(st)) {
+    sky = skyStarsOfScene(scene, st);
+    placed = sky.stars;
+  } else if (Array.isArray(st)) placed = st.map((s) => ({ x: s.x, y: s.y, fluxE: s.fluxE }));
+  else placed = generateStars(st, W, H, new Rng(streamSeed(seed, 1)));
 
   const truth: SimTruthStar[] = [];
   const global: Record<string, unknown> = {
@@ -218,6 +229,10 @@ export function renderScene(input: Scene): SimResult {
     t.saturated = s;
   }
 
+  if (sky) {
+    for (let i = 0; i < truth.length; i++) Object.assign(truth[i], sky.starTruth[i]);
+    global.astrometry = skyTruth(scene, sky);
+  }
   global.sky = { ...sk, unit: 'ADU above bias', center: frameCentre };
   global.noise = { ...scene.noise };
   global.hotPixels = hot;
@@ -234,8 +249,8 @@ export function renderScene(input: Scene): SimResult {
     { key: 'APTDIA', value: o.focalLengthMm / o.fNumber, comment: '[mm] aperture diameter' },
     { key: 'XPIXSZ', value: o.pixelSizeUm, comment: '[um] pixel size' },
     { key: 'YPIXSZ', value: o.pixelSizeUm, comment: '[um] pixel size' },
-    { key: 'XBINNING', value: 1, comment: 'binning' },
-    { key: 'YBINNING', value: 1, comment: 'binning' },
+    { key: 'XBINNING', value: o.binning, comment: 'binning' },
+    { key: 'YBINNING', value: o.binning, comment: 'binning' },
     { key: 'GAIN', value: gain, comment: '[e-/ADU] conversion gain' },
     { key: 'RDNOISE', value: scene.noise.readNoiseE, comment: '[e-] read noise' },
     { key: 'SATURATE', value: scene.saturationAdu, comment: '[ADU] saturation level' },

@@ -9,6 +9,7 @@
  * errors in µm at the sensor, positive = sensor behind best focus (optics.md §4).
  */
 import { SkyloupeError } from '../errors.ts';
+import { PROJECTIONS, type Projection } from '../sky/lens.ts';
 
 export const SCENE_SCHEMA = 'skyloupe.scene/1';
 
@@ -26,6 +27,8 @@ export interface SceneOptics {
   fNumber: number;
   /** Central obstruction, ratio of diameters ε in [0, 0.95). Default 0. */
   obstruction: number;
+  /** Binning already applied by the camera (header XBINNING; pixelSizeUm is the binned pitch). Default 1. */
+  binning: number;
 }
 
 /** One explicit star. Shape fields override the analytic PSF for this star only. */
@@ -56,6 +59,33 @@ export interface SceneStarField {
   /** Smallest distance between two star centres, px (0: none). Default 12. */
   minSeparationPx: number;
   /** Keep star centres this far from the frame border, px. Default 8. */
+  marginPx: number;
+}
+
+/**
+ * The bundled catalogue's stars as a lens pointed at the sky records them (sky-field.ts, through
+ * core/sky/lens.ts's model): focal length and pixel size from `optics`, the optical centre (the
+ * centre of the distortion) from the optics PSF's `opticalCenterPx` (the frame centre otherwise).
+ */
+export interface SceneSkyStars {
+  /** Sky position of the optical axis, ICRS degrees. */
+  pointing: { raDeg: number; decDeg: number };
+  /** Direction of celestial north on the frame at the optical axis, degrees from +x toward +y. */
+  northDeg: number;
+  /** As report.astrometry.parity: 'normal' = the frame as displayed (FITS: last row at the top) shows the sky as seen. Default 'normal'. */
+  parity: 'normal' | 'mirrored';
+  /** Default 'rectilinear'. */
+  projection: Projection;
+  /** Radial distortion r_d = r (1 + k1 q^2 + k2 q^4), q = r / (half the frame diagonal). Defaults 0. */
+  k1: number;
+  k2: number;
+  /** Faintest catalogue magnitude drawn. Default 8. */
+  magLimit: number;
+  /** Electrons of a magnitude-0 star (before vignetting). Default 1e7. */
+  fluxMag0E: number;
+  /** Largest number of stars, the brightest first; 0 = no limit. Default 0. */
+  maxStars: number;
+  /** Keep star centres this far inside the frame, px. Default 6. */
   marginPx: number;
 }
 
@@ -167,8 +197,8 @@ export interface Scene {
   /** Exposure time, s (header only; trails and rotation are given directly). Default 60. */
   exposureS: number;
   optics: SceneOptics;
-  /** An explicit list or a random field. */
-  stars: SceneStar[] | SceneStarField;
+  /** An explicit list, a random field, or the catalogue's stars through a lens (an object with `pointing`). */
+  stars: SceneStar[] | SceneStarField | SceneSkyStars;
   psf: ScenePsf;
   /**
    * Sky background in ADU above bias: level at the frame centre, plus the change
@@ -294,18 +324,44 @@ function range(v: unknown, path: string, o: NumOpts): Range | null {
 }
 
 function parseOptics(v: unknown): SceneOptics {
-  const o = obj(v, 'optics', ['pixelSizeUm', 'focalLengthMm', 'fNumber', 'obstruction']);
+  const o = obj(v, 'optics', ['pixelSizeUm', 'focalLengthMm', 'fNumber', 'obstruction', 'binning']);
   return {
     pixelSizeUm: num(o.pixelSizeUm, 'optics.pixelSizeUm', 3.76, { gt: 0, max: 1000 }),
     focalLengthMm: num(o.focalLengthMm, 'optics.focalLengthMm', 300, { gt: 0, max: 1e6 }),
     fNumber: num(o.fNumber, 'optics.fNumber', 4, { min: 0.5, max: 1000 }),
     obstruction: num(o.obstruction, 'optics.obstruction', 0, { min: 0, lt: 0.95 }),
+    binning: num(o.binning, 'optics.binning', 1, { min: 1, max: 16, int: true }),
   };
 }
 
 const FWHM = { min: 0.3, max: 500 };
 
-function parseStars(v: unknown, width: number, height: number): SceneStar[] | SceneStarField {
+/** Whether a scene's star source is the catalogue through a lens. */
+export function isSkyStars(s: Scene['stars']): s is SceneSkyStars {
+  return !Array.isArray(s) && 'pointing' in s;
+}
+
+function parseSkyStars(v: Obj, width: number, height: number): SceneSkyStars {
+  const o = obj(v, 'stars', ['pointing', 'northDeg', 'parity', 'projection', 'k1', 'k2', 'magLimit', 'fluxMag0E', 'maxStars', 'marginPx']);
+  const pt = obj(o.pointing, 'stars.pointing', ['raDeg', 'decDeg']);
+  if (pt.raDeg === undefined || pt.decDeg === undefined) fail('stars.pointing', 'needs raDeg and decDeg');
+  const s: SceneSkyStars = {
+    pointing: { raDeg: num(pt.raDeg, 'stars.pointing.raDeg', 0, { min: 0, lt: 360 }), decDeg: num(pt.decDeg, 'stars.pointing.decDeg', 0, { min: -90, max: 90 }) },
+    northDeg: num(o.northDeg, 'stars.northDeg', 0, { min: -360, max: 360 }),
+    parity: oneOf(o.parity, 'stars.parity', 'normal', ['normal', 'mirrored'] as const),
+    projection: oneOf(o.projection, 'stars.projection', 'rectilinear', PROJECTIONS),
+    k1: num(o.k1, 'stars.k1', 0, { min: -1, max: 1 }),
+    k2: num(o.k2, 'stars.k2', 0, { min: -1, max: 1 }),
+    magLimit: num(o.magLimit, 'stars.magLimit', 8, { min: -2, max: 30 }),
+    fluxMag0E: num(o.fluxMag0E, 'stars.fluxMag0E', 1e7, { gt: 0, max: 1e14 }),
+    maxStars: num(o.maxStars, 'stars.maxStars', 0, { min: 0, max: 1_000_000, int: true }),
+    marginPx: num(o.marginPx, 'stars.marginPx', 6, { min: 0 }),
+  };
+  if (2 * s.marginPx >= Math.min(width, height) - 1) fail('stars.marginPx', `leaves no room in a ${width}x${height} frame`);
+  return s;
+}
+
+function parseStars(v: unknown, width: number, height: number): SceneStar[] | SceneStarField | SceneSkyStars {
   if (Array.isArray(v)) {
     if (v.length > 1_000_000) fail('stars', `has ${v.length} entries (at most 1000000)`);
     return v.map((s, i) => {
@@ -324,6 +380,7 @@ function parseStars(v: unknown, width: number, height: number): SceneStar[] | Sc
       return star;
     });
   }
+  if (isObj(v) && v.pointing !== undefined) return parseSkyStars(v, width, height);
   const o = obj(v, 'stars', ['count', 'fluxMinE', 'fluxMaxE', 'slope', 'minSeparationPx', 'marginPx']);
   const f: SceneStarField = {
     count: num(o.count, 'stars.count', 200, { min: 0, max: 1_000_000, int: true }),

@@ -6,8 +6,8 @@
  */
 import type { Catalogue } from '../sky/catalogue.ts';
 import { starsInCone } from '../sky/catalogue.ts';
-import { maxFieldAngle, skyToPixel, type LensModel, type Projection } from '../sky/lens.ts';
-import { DEG, normalize, radecToVec, rotationFromAxes, tangentBasis } from '../sky/sphere.ts';
+import { maxFieldAngle, pixelToSky, skyToPixel, type LensModel, type Projection } from '../sky/lens.ts';
+import { angleBetween, DEG, normalize, radecToVec, rotationFromAxes, tangentBasis } from '../sky/sphere.ts';
 import { Rng } from './prng.ts';
 import type { SceneStar } from './scene.ts';
 
@@ -83,8 +83,13 @@ export function skyFieldStars(cat: Catalogue, o: SkyFieldOptions): SkyFieldStar[
   const pt: [number, number] = [0, 0];
   for (const i of starsInCone(cat, z, reach)) {
     if (cat.mag[i] > o.magLimit) break;
-    const r = skyToPixel(m, [cat.xyz[3 * i], cat.xyz[3 * i + 1], cat.xyz[3 * i + 2]], pt);
+    const v: [number, number, number] = [cat.xyz[3 * i], cat.xyz[3 * i + 1], cat.xyz[3 * i + 2]];
+    const r = skyToPixel(m, v, pt);
     if (!r || r[0] < margin || r[1] < margin || r[0] > o.width - 1 - margin || r[1] > o.height - 1 - margin) continue;
+    // A star beyond the distortion polynomial's fold lands back inside the frame on paper; the
+    // lens does not image it there (the pixel's own direction is another one).
+    const back = pixelToSky(m, r[0], r[1]);
+    if (!back || angleBetween(back, v) * m.fPx > 0.01) continue;
     out.push({ x: r[0], y: r[1], fluxE: o.fluxMag0E * 10 ** (-0.4 * cat.mag[i]), cat: i, mag: cat.mag[i] });
     if (o.maxStars && out.length >= o.maxStars) break;
   }

@@ -28,6 +28,13 @@ describe('parseScene', () => {
     const o = parseScene({ psf: { kind: 'optics', aberrations: { comaCenterPx: { x: 1, y: 2 } } } });
     expect(parseScene(JSON.parse(JSON.stringify(o)))).toEqual(o);
     expect(o.psf).toMatchObject({ kind: 'optics', seeing: { model: 'gaussian', fwhmPx: 2.5, beta: 4.765 }, aberrations: { curvatureRadiusMm: null, opticalCenterPx: null } });
+    expect(s.optics.binning).toBe(1);
+    const sky = parseScene({ stars: { pointing: { raDeg: 83.8, decDeg: -5.4 } } });
+    expect(sky.stars).toEqual({
+      pointing: { raDeg: 83.8, decDeg: -5.4 }, northDeg: 0, parity: 'normal', projection: 'rectilinear',
+      k1: 0, k2: 0, magLimit: 8, fluxMag0E: 1e7, maxStars: 0, marginPx: 6,
+    });
+    expect(parseScene(JSON.parse(JSON.stringify(sky)))).toEqual(sky);
   });
 
   it('rejects bad input with one-line usage errors naming the field', () => {
@@ -47,6 +54,11 @@ describe('parseScene', () => {
       [{ psf: { kind: 'optics', aberrations: { curvatureRadiusMm: 0 } } }, /curvatureRadiusMm must be at least 1 mm/],
       [{ saturationAdu: 70000 }, /saturationAdu must be <= 65535/],
       [{ schema: 'other/2' }, /^scene: schema must be/],
+      [{ optics: { binning: 1.5 } }, /^scene: optics.binning must be an integer/],
+      [{ stars: { pointing: { raDeg: 10 } } }, /^scene: stars.pointing needs raDeg and decDeg$/],
+      [{ stars: { pointing: { raDeg: 10, decDeg: 95 } } }, /^scene: stars.pointing.decDeg must be <= 90/],
+      [{ stars: { pointing: { raDeg: 10, decDeg: 5 }, projection: 'fisheye' } }, /^scene: stars.projection must be one of 'rectilinear'/],
+      [{ stars: { pointing: { raDeg: 10, decDeg: 5 }, count: 5 } }, /^scene: stars.count is not a known field/],
     ];
     for (const [input, re] of cases) {
       const e = usageError(() => parseScene(input));
@@ -123,6 +135,26 @@ describe('simulateToFiles', () => {
     expect(truth.stars).toHaveLength(12);
     expect(truth.stars[0].x).toBeCloseTo(direct.truth.stars[0].x, 6);
     expect(parseScene(truth.scene)).toEqual(truth.scene);
+  });
+
+  it('draws catalogue stars through the scene\'s lens, with their catalogue numbers in the truth', () => {
+    // Orion's belt at 50 mm on a small frame (catalogue: the bundled Hipparcos)
+    const scene = parseScene({
+      width: 400, height: 300, seed: 9, optics: { pixelSizeUm: 20, focalLengthMm: 50, binning: 2 },
+      stars: { pointing: { raDeg: 83.8, decDeg: -3.5 }, northDeg: -90, k1: -0.02, magLimit: 6, fluxMag0E: 1e6 },
+      psf: { kind: 'analytic' },
+    });
+    const res = renderScene(scene);
+    const truth = res.truth;
+    expect(truth.stars.length).toBeGreaterThan(10);
+    for (const t of truth.stars) {
+      expect(t.catalogueId).toMatch(/^HIP \d+$/);
+      expect(t.mag).toBeLessThanOrEqual(6);
+    }
+    // Alnilam (epsilon Ori, HIP 26311, V 1.69) is in the field (the belt's middle star; HIP number from memory)
+    expect(truth.stars.map((t) => t.catalogueId)).toContain('HIP 26311');
+    expect(truth.global.astrometry).toMatchObject({ pointing: { raDeg: 83.8, decDeg: -3.5 }, parity: 'normal', distortion: { k1: -0.02, k2: 0 } });
+    expect(res.cards.find((c) => c.key === 'XBINNING')?.value).toBe(2);
   });
 
   it('reports unreadable and invalid scene files as one-line errors', async () => {
