@@ -240,7 +240,10 @@ describe('exports', () => {
     const p = await download('#btn-export-html');
     const html = readFileSync(p, 'utf8');
     expect(path.basename(p)).toBe('demo-frame.skyloupe.html');
-    expect((html.match(/<svg /g) ?? []).length).toBe(7);
+    // seven figures, and the distortion figure when the frame is placed on the sky (the demo is)
+    expect(report.astrometry?.solved).toBe(true);
+    expect((html.match(/<svg /g) ?? []).length).toBe(8);
+    expect(html).toContain('as the lens draws it');
     const embedded = JSON.parse(html.match(/<script type="application\/json" id="skyloupe-report">([\s\S]*?)<\/script>/)![1]) as Report;
     expect(embedded.summary).toEqual(report.summary);
     for (const f of report.findings ?? []) expect(html).toContain(f.code);
