@@ -9,7 +9,7 @@
  * distance where its spacing error is zero).
  */
 import { describe, expect, it, beforeAll, afterAll } from 'vitest';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import sharp from 'sharp';
@@ -19,7 +19,7 @@ import { parseScene } from '../../core/simulate/scene.ts';
 import { fitsBytes } from '../../core/simulate/write.ts';
 import { encodeFits } from '../../core/frame/fits-write.ts';
 import type { Report } from '../../core/report/types.ts';
-import { launch, shot, startServe, OUT, type Served } from './browser.ts';
+import { launch, shot, startServe, stopServe, OUT, type Served } from './browser.ts';
 
 // page-side code runs in the browser; these names exist there, not in Node's types
 declare const document: any;
@@ -38,6 +38,7 @@ const SPACERS = [47.2, 52.2, 57.2, 62.2];
 const SWEEP_OPTICS = { pixelSizeUm: 9, focalLengthMm: 400, fNumber: 4 };
 
 let served: Served;
+let dir: string | undefined;
 let ctx: BrowserContext;
 let page: Page;
 let report: Report;
@@ -89,8 +90,8 @@ async function dropFile(name: string, bytes: Uint8Array): Promise<void> {
 }
 
 beforeAll(async () => {
-  const dir = mkdtempSync(path.join(os.tmpdir(), 'skyloupe-e2e-'));
-  const put = (name: string, bytes: Uint8Array) => { files[name] = path.join(dir, name); writeFileSync(files[name], bytes); };
+  const work = (dir = mkdtempSync(path.join(os.tmpdir(), 'skyloupe-e2e-')));
+  const put = (name: string, bytes: Uint8Array) => { files[name] = path.join(work, name); writeFileSync(files[name], bytes); };
   put('lens-b.fits', scene(21, { tiltXUmAcross: 90, astigmatismUmPerMm2: 1.5 }));
   for (const s of SPACERS) put(`spacer-${s.toFixed(1)}mm.fits`, scene(Math.round(30 + s * 10), { spacingErrorMm: +(s - NOMINAL_SPACER_MM).toFixed(3) }, [900, 630], 420, SWEEP_OPTICS));
   put('broken.fits', new TextEncoder().encode('SIMPLE  =                    T / a header and nothing else'));
@@ -102,14 +103,15 @@ beforeAll(async () => {
   // 16-bit, so the sky noise keeps its spread (8 bits would quantise it away)
   const u16 = Uint16Array.from(f.data, (v) => Math.min(65535, Math.round(v)));
   put('no-optics.png', await sharp(u16, { raw: { width: f.width, height: f.height, channels: 1 } }).toColourspace('grey16').png().toBuffer());
-  served = await startServe(path.join(dir, 'config'));
+  served = await startServe(path.join(work, 'config'));
   ({ ctx, page } = await launch());
   page.on('pageerror', (e) => pageErrors.push(e.message));
 });
 
 afterAll(async () => {
   await ctx?.close();
-  served?.child.kill('SIGTERM');
+  await stopServe(served);
+  if (dir) rmSync(dir, { recursive: true, force: true });
 });
 
 describe('the demo frame in the browser', () => {

@@ -3,7 +3,7 @@
  * `skyloupe serve`. Chromium missing is an error, never a skip (CI installs it with apt).
  */
 import { spawn, type ChildProcess } from 'node:child_process';
-import { existsSync, mkdirSync, mkdtempSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
@@ -50,8 +50,19 @@ export async function launch(): Promise<{ ctx: BrowserContext; page: Page }> {
     viewport: { width: 1366, height: 768 },
     args: ['--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run'],
   });
+  // the profile is this launch's alone: gone when the browser closes
+  ctx.once('close', () => rmSync(profile, { recursive: true, force: true }));
   const page = ctx.pages()[0] ?? (await ctx.newPage());
   return { ctx, page };
+}
+
+/** Stops `skyloupe serve` and waits until it has exited (so its files can be removed after). */
+export async function stopServe(s: Served | undefined): Promise<void> {
+  const child = s?.child;
+  if (!child || child.exitCode !== null || child.signalCode !== null) return;
+  const gone = new Promise<void>((resolve) => child.once('exit', () => resolve()));
+  child.kill('SIGTERM');
+  await gone;
 }
 
 export async function shot(page: Page, name: string): Promise<void> {

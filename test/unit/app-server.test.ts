@@ -7,7 +7,7 @@ import { describe, expect, it, beforeAll, afterAll } from 'vitest';
 import http from 'node:http';
 import net from 'node:net';
 import { spawn } from 'node:child_process';
-import { mkdtempSync } from 'node:fs';
+import { mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { EngineSession } from '../../app/engine/session.ts';
@@ -135,7 +135,12 @@ describe('skyloupe serve', () => {
       expect(res.status).toBe(200);
       expect((await fetch(`${url.origin}/`)).status).toBe(401);
     } finally {
-      child.kill('SIGTERM');
+      if (child.exitCode === null && child.signalCode === null) {
+        const gone = new Promise((resolve) => child.once('exit', resolve));
+        child.kill('SIGTERM');
+        await gone;
+      }
+      rmSync(cfg, { recursive: true, force: true });
     }
   });
 

@@ -3,7 +3,7 @@
  * cancel, clear failures, optics remembered per camera, and the exports.
  */
 import { describe, expect, it, beforeAll, afterAll } from 'vitest';
-import { mkdtempSync, readFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import sharp from 'sharp';
@@ -41,7 +41,8 @@ beforeAll(async () => {
 });
 
 afterAll(async () => {
-  await session.close();
+  await session?.close();
+  if (cfgDir) rmSync(cfgDir, { recursive: true, force: true });
 });
 
 async function ok(p: Promise<{ ok: boolean }>): Promise<AnalysisResult> {

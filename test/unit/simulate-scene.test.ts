@@ -1,7 +1,7 @@
-import { mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
-import { describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it } from 'vitest';
 import { SkyloupeError } from '../../core/errors.ts';
 import { decodeFits } from '../../core/frame/fits.ts';
 import { Rng } from '../../core/simulate/prng.ts';
@@ -110,8 +110,12 @@ describe('random star fields', () => {
 });
 
 describe('simulateToFiles', () => {
+  const dirs: string[] = [];
+  const tempDir = () => { const d = mkdtempSync(path.join(tmpdir(), 'skyloupe-sim-')); dirs.push(d); return d; };
+  afterAll(() => { for (const d of dirs) rmSync(d, { recursive: true, force: true }); });
+
   it('writes a 16-bit BZERO=32768 FITS and the truth beside it, atomically', async () => {
-    const dir = mkdtempSync(path.join(tmpdir(), 'skyloupe-sim-'));
+    const dir = tempDir();
     const scenePath = path.join(dir, 'scene.json');
     const scene = { width: 120, height: 80, seed: 4, stars: { count: 12, minSeparationPx: 10 }, psf: { kind: 'optics' }, hotPixels: 2 };
     writeFileSync(scenePath, JSON.stringify(scene));
@@ -158,7 +162,7 @@ describe('simulateToFiles', () => {
   });
 
   it('reports unreadable and invalid scene files as one-line errors', async () => {
-    const dir = mkdtempSync(path.join(tmpdir(), 'skyloupe-sim-'));
+    const dir = tempDir();
     await expect(simulateToFiles(path.join(dir, 'none.json'), path.join(dir, 'x.fits'))).rejects.toThrow(/^cannot read scene/);
     writeFileSync(path.join(dir, 'bad.json'), '{ width: ');
     await expect(simulateToFiles(path.join(dir, 'bad.json'), path.join(dir, 'x.fits'))).rejects.toThrow(/^scene: .* is not valid JSON/);
