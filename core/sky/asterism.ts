@@ -95,6 +95,72 @@ export interface IndexOptions {
 
 export const DEFAULT_INDEX: IndexOptions = { perCell: 6, innerStars: 3, perCellQuads: 8 };
 
+/** Sky cell of catalogue star i. */
+function cellOfStar(grid: CellGrid, xyz: Float64Array, i: number): number {
+  const x = xyz[3 * i], y = xyz[3 * i + 1], z = xyz[3 * i + 2];
+  let ra = Math.atan2(y, x) / DEG;
+  if (ra < 0) ra += 360;
+  return cellOf(grid, ra, Math.asin(Math.max(-1, Math.min(1, z))) / DEG);
+}
+
+/** Cell lists of the index stars: first entry of each cell, and the stars in cell order (their own order within a cell). */
+function cellLists(grid: CellGrid, cellOfIndexStar: ArrayLike<number>): { starCellStart: Int32Array; starOrder: Int32Array } {
+  const ns = cellOfIndexStar.length;
+  const starCellStart = new Int32Array(grid.cells + 1);
+  for (let s = 0; s < ns; s++) starCellStart[cellOfIndexStar[s] + 1]++;
+  for (let c = 0; c < grid.cells; c++) starCellStart[c + 1] += starCellStart[c];
+  const fillPos = starCellStart.slice(0, grid.cells);
+  const starOrder = new Int32Array(ns);
+  for (let s = 0; s < ns; s++) starOrder[fillPos[cellOfIndexStar[s]]++] = s;
+  return { starCellStart, starOrder };
+}
+
+/** Dense bin of asterism q's code (xC, yC, xD). */
+function codeKey(codes: Float32Array, q: number): number {
+  return (bin(codes[4 * q]) * NBIN + bin(codes[4 * q + 1])) * NBIN + bin(codes[4 * q + 2]);
+}
+
+/** First asterism of each bin, from the asterisms' bins (counts, then running sums). */
+function binStarts(keys: Int32Array): Int32Array {
+  const nb = NBIN * NBIN * NBIN;
+  const binStart = new Int32Array(nb + 1);
+  for (let q = 0; q < keys.length; q++) binStart[keys[q] + 1]++;
+  for (let b = 0; b < nb; b++) binStart[b + 1] += binStart[b];
+  return binStart;
+}
+
+/** What a band stores: the rest of a BandIndex follows from it (bandFromStored). */
+export interface StoredBand {
+  readonly dLo: number;
+  readonly dHi: number;
+  readonly cellDeg: number;
+  readonly stars: Int32Array;
+  readonly quads: Int32Array;
+  readonly codes: Float32Array;
+}
+
+/**
+ * A band from its stored parts: the index stars' cell lists and the code bins are recomputed
+ * by the same functions buildBandIndex uses, so they equal the built ones. null when the parts
+ * do not fit together (a damaged or foreign file) or name stars the catalogue does not have.
+ */
+export function bandFromStored(cat: Catalogue, p: StoredBand): BandIndex | null {
+  const grid = cellGrid(p.cellDeg);
+  const count = p.quads.length / 4;
+  if (grid.cellDeg !== p.cellDeg || !Number.isInteger(count) || p.codes.length !== p.quads.length) return null;
+  for (let k = 0; k < p.stars.length; k++) if (!(p.stars[k] >= 0 && p.stars[k] < cat.count)) return null;
+  for (let k = 0; k < p.quads.length; k++) if (!(p.quads[k] >= 0 && p.quads[k] < cat.count)) return null;
+  const cells = new Int32Array(p.stars.length);
+  for (let s = 0; s < cells.length; s++) cells[s] = cellOfStar(grid, cat.xyz, p.stars[s]);
+  const { starCellStart, starOrder } = cellLists(grid, cells);
+  const keys = new Int32Array(count);
+  for (let q = 0; q < count; q++) {
+    keys[q] = codeKey(p.codes, q);
+    if (q > 0 && keys[q] < keys[q - 1]) return null; // stored in bin order
+  }
+  return { dLo: p.dLo, dHi: p.dHi, stars: p.stars, starGrid: grid, starCellStart, starOrder, quads: p.quads, codes: p.codes, binStart: binStarts(keys), count };
+}
+
 function magOrder(cat: Catalogue): Int32Array {
   return brightnessRank(cat).byRank;
 }
@@ -110,10 +176,7 @@ export function buildBandIndex(cat: Catalogue, dLo: number, dHi: number, opt: In
   const xyz = cat.xyz;
   for (let k = 0; k < order.length; k++) {
     const i = order[k];
-    const x = xyz[3 * i], y = xyz[3 * i + 1], z = xyz[3 * i + 2];
-    let ra = Math.atan2(y, x) / DEG;
-    if (ra < 0) ra += 360;
-    const c = cellOf(grid, ra, Math.asin(Math.max(-1, Math.min(1, z))) / DEG);
+    const c = cellOfStar(grid, xyz, i);
     if (filled[c] >= opt.perCell) continue;
     filled[c]++;
     picked.push(i);
@@ -121,13 +184,7 @@ export function buildBandIndex(cat: Catalogue, dLo: number, dHi: number, opt: In
   }
   const stars = Int32Array.from(picked);
   const ns = stars.length;
-  // cell lists of the index stars
-  const starCellStart = new Int32Array(grid.cells + 1);
-  for (let s = 0; s < ns; s++) starCellStart[pickedCell[s] + 1]++;
-  for (let c = 0; c < grid.cells; c++) starCellStart[c + 1] += starCellStart[c];
-  const fillPos = starCellStart.slice(0, grid.cells);
-  const starOrder = new Int32Array(ns);
-  for (let s = 0; s < ns; s++) starOrder[fillPos[pickedCell[s]]++] = s;
+  const { starCellStart, starOrder } = cellLists(grid, pickedCell);
 
   // 2. asterisms: in each cell, pairs of index stars (brightest first) at a distance within the band
   // whose midpoint lies in the cell, with the brightest index stars inside their circle, until the
@@ -228,12 +285,9 @@ export function buildBandIndex(cat: Catalogue, dLo: number, dHi: number, opt: In
   }
   // 3. bin the codes
   const keys = new Int32Array(nq);
-  for (let q = 0; q < nq; q++) keys[q] = (bin(codeList[4 * q]) * NBIN + bin(codeList[4 * q + 1])) * NBIN + bin(codeList[4 * q + 2]);
-  const nb = NBIN * NBIN * NBIN;
-  const binStart = new Int32Array(nb + 1);
-  for (let q = 0; q < nq; q++) binStart[keys[q] + 1]++;
-  for (let b = 0; b < nb; b++) binStart[b + 1] += binStart[b];
-  const pos = binStart.slice(0, nb);
+  for (let q = 0; q < nq; q++) keys[q] = codeKey(codeList, q);
+  const binStart = binStarts(keys);
+  const pos = binStart.slice(0, NBIN * NBIN * NBIN);
   const quads = new Int32Array(4 * nq);
   const codes = new Float32Array(4 * nq);
   for (let q = 0; q < nq; q++) {

@@ -26,7 +26,7 @@ export function bandIndex(cat: Catalogue, k: number): BandIndex {
     const { dLo, dHi } = bandRange(k);
     const o = DEFAULT_INDEX;
     const key = cat.fingerprint ? `${cat.fingerprint}-${k}-${o.perCell}-${o.innerStars}-${o.perCellQuads}` : null;
-    b = (key ? loadBand(key, dLo, dHi) : null) ?? undefined;
+    b = (key ? loadBand(key, cat, dLo, dHi) : null) ?? undefined;
     if (!b) {
       b = buildBandIndex(cat, dLo, dHi);
       if (key) saveBand(key, b);
