@@ -55,7 +55,7 @@ export interface FocusPairResult {
   defocus: { centreUm: number; centreErrUm: number; corners: FocusPairCorner[] };
   /** Best focus at the corners minus at the centre, µm (> 0 = the corners want the sensor farther from the lens), as in through-focus. */
   curvature: { cornerUm: number; cornerErrUm: number; significant: boolean };
-  /** |sagittal minus tangential focus| at the corners, µm: sizes alone do not tell its sign. */
+  /** |sagittal minus tangential focus| at the corners, µm: sizes alone do not tell its sign. Significant: it improves the fit by 3 sigma and exceeds 3 errors. */
   astigmatism: { magnitudeUm: number; magnitudeErrUm: number; significant: boolean };
   /**
    * Model check: the mean residual size of each zone of each frame against its error. A model that
@@ -108,7 +108,12 @@ function zoneCheck(data: DefocusData, params: Float64Array, fit: DefocusFit, g: 
   return { zones, chi2, errorScale: zones > 0 ? Math.sqrt(Math.max(1, chi2 / zones)) : 1 };
 }
 
-export function focusPair(near: FrameInput, far: FrameInput, stepUm: number): FocusPairResult {
+export interface FocusPairOptions {
+  /** Fit the astigmatic size term (default true). */
+  astigmatism?: boolean;
+}
+
+export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opts: FocusPairOptions = {}): FocusPairResult {
   checkFrame(near, 'focus-pair NEAR');
   checkFrame(far, 'focus-pair FAR');
   if (!Number.isFinite(stepUm) || stepUm === 0) throw usage('focus-pair: --step must be a non-zero number of micrometres (the focus change from NEAR to FAR at the sensor)');
@@ -139,7 +144,7 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number): Fo
     }
   }
   const stepQ = u.sqrtK !== null ? u.sqrtK * stepUm : null;
-  const spec: DefocusSpec = { tilt: true, curvature: true, pair: { stepQ }, astigmatism: true };
+  const spec: DefocusSpec = { tilt: true, curvature: true, pair: { stepQ }, astigmatism: opts.astigmatism ?? true };
   // Starts: both signs of the first frame's single-frame solutions, plus the generic grid. The
   // astigmatic term starts off zero (its gradient vanishes there) and at the size of the blur.
   const single: DefocusData = { n: A.cols.n, u: data.u.subarray(0, A.cols.n), v: data.v.subarray(0, A.cols.n), T: data.T.subarray(0, A.cols.n), sig: data.sig.subarray(0, A.cols.n), frame: null, beta };
@@ -187,6 +192,10 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number): Fo
   const noTiltSpec = { ...spec, tilt: false };
   const noTilt = fitDefocus(data, noTiltSpec, defaultStarts(data, noTiltSpec).map((p) => { p[P.s] = stepQ ?? sStart; p[P.a4] = a4Start; return p; }).concat([Float64Array.from(best)]), fixed);
   const dchi2 = noTilt ? Math.max(0, noTilt.chi2 - full.chi2) / scale2 : 0;
+  // The astigmatic term's worth: |a4| is biased up from zero, so it must also improve the fit (3 sigma, one parameter).
+  const noAstSpec = { ...spec, astigmatism: false };
+  const noAst = spec.astigmatism ? fitDefocus(data, noAstSpec, [Object.assign(Float64Array.from(best), { [P.a4]: 0 })], fixed) : null;
+  const dchi2Ast = noAst ? Math.max(0, noAst.chi2 - full.chi2) / scale2 : 0;
   // Bootstrap over stars of both frames.
   const rand = rng(99);
   const boot: Float64Array[] = [];
@@ -245,7 +254,7 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number): Fo
     },
     defocus: { centreUm: toUm(best[P.a0]), centreErrUm: errOf((p) => toUm(p[P.a0])), corners },
     curvature: { cornerUm, cornerErrUm, significant: Math.abs(cornerUm) >= 3 * cornerErrUm },
-    astigmatism: { magnitudeUm: astUm(best), magnitudeErrUm: astErr, significant: astUm(best) >= 3 * astErr },
+    astigmatism: { magnitudeUm: astUm(best), magnitudeErrUm: astErr, significant: dchi2Ast >= 9 && astUm(best) >= 3 * astErr },
     modelCheck: check,
     moffatBeta: beta,
     stepScale: stepQ !== null ? 1 : null,
