@@ -27,7 +27,7 @@ import { sideName } from '../field/geometry.ts';
 import type { Finding } from '../diagnose/types.ts';
 import type { XY } from '../field/types.ts';
 import { usage } from '../errors.ts';
-import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameInput } from './input.ts';
+import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameIdentity, type FrameInput } from './input.ts';
 
 export interface FocusPairCorner { name: string; xPx: number; yPx: number; defocusUm: number; defocusErrUm: number }
 
@@ -117,7 +117,8 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
   checkFrame(near, 'focus-pair NEAR');
   checkFrame(far, 'focus-pair FAR');
   if (!Number.isFinite(stepUm) || stepUm === 0) throw usage('focus-pair: --step must be a non-zero number of micrometres (the focus change from NEAR to FAR at the sensor)');
-  checkSameSetup('focus-pair', [near, far], ['NEAR', 'FAR']);
+  // One camera at one setting; focusing changes the focal length by far less than 5 %.
+  const setupNotes = checkSameSetup('focus-pair', [near, far], ['NEAR', 'FAR'], { scaleTolerance: 0.05 });
   const A = frameData(near);
   const B = frameData(far);
   if (A.cols.n < 20 || B.cols.n < 20) throw usage(`focus-pair: too few clean stars (${A.cols.n} and ${B.cols.n}; at least 20 each)`);
@@ -237,7 +238,7 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
   const astErr = errOf(astUm);
   const significant = dchi2 >= 16 && Math.hypot(acrossX, acrossY) > 3 * Math.hypot(errX, errY);
   const signResolved = signD >= 9;
-  const notes: string[] = [];
+  const notes: string[] = [...setupNotes];
   if (u.sqrtK === null) notes.push('the f-number or pixel size is unknown; micrometres come from the focus step itself (its fitted effect on the star sizes)');
   if (es > 1.5) notes.push(`the focus model leaves zones off by more than their noise (errors scaled up ${fmt(es, 1)} times): coma, vignetting or a focus surface more complex than tilt, curvature and astigmatism; a focus series (through-focus) maps it zone by zone`);
   const result: FocusPairResult = {
@@ -299,8 +300,8 @@ function pairFindings(r: FocusPairResult, g: Geometry): Finding[] {
 }
 
 /** CLI-facing: `focus-pair NEAR FAR --step UM` on analyses. */
-export function runFocusPair(near: AnalysisLike, far: AnalysisLike, stepUm: number, labels: { near?: string; far?: string } = {}): FocusPairResult {
-  return focusPair(fromAnalysis(near, labels.near), fromAnalysis(far, labels.far), stepUm);
+export function runFocusPair(near: AnalysisLike, far: AnalysisLike, stepUm: number, labels: { near?: string; far?: string } = {}, ids: { near?: FrameIdentity | null; far?: FrameIdentity | null } = {}): FocusPairResult {
+  return focusPair(fromAnalysis(near, labels.near, ids.near), fromAnalysis(far, labels.far, ids.far), stepUm);
 }
 
 export function formatFocusPair(r: FocusPairResult): string {

@@ -16,7 +16,7 @@ import { axisDeg, median, madSigma } from '../field/stats.ts';
 import { acrossWords, fmt, fmtErr, tiltAdvice, tiltSides } from '../diagnose/words.ts';
 import type { Finding } from '../diagnose/types.ts';
 import { usage } from '../errors.ts';
-import { checkFrame, fromAnalysis, type AnalysisLike, type FrameInput } from './input.ts';
+import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameIdentity, type FrameInput } from './input.ts';
 import { matchSeries } from './match.ts';
 import { curveAt, fitCurves, starVertex, vertexOf, type CurveFit, type Vertex, type ZoneCurve } from './focus-curve.ts';
 import { drawParameters, fitSurface, meanStd, surfaceAt, surfaceRange } from './focus-surface.ts';
@@ -227,10 +227,9 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   const distinct = new Set(inputs.map((f) => f.positionUm));
   if (distinct.size === 1) throw usage(`through-focus: every frame is at the same position (${inputs[0].positionUm} um): step the focuser between frames`);
   if (distinct.size < 3) throw usage(`through-focus: the frames sit at only ${distinct.size} different positions; a focus curve needs three or more (five or more across focus are better)`);
+  // One camera at one setting; focusing changes the focal length by far less than 5 %.
+  const setupNotes = checkSameSetup('through-focus', inputs, inputs.map((f) => `the frame at ${f.positionUm} µm`), { scaleTolerance: 0.05 });
   const W = inputs[0].width, H = inputs[0].height;
-  for (const f of inputs) {
-    if (f.width !== W || f.height !== H) throw usage(`through-focus: the frames differ in size (${W}x${H} and ${f.width}x${f.height}${f.label ? `, ${f.label}` : ''}): they must come from one camera and setting`);
-  }
   const order = inputs.map((_, i) => i).sort((a, b) => inputs[a].positionUm - inputs[b].positionUm);
   const frames = order.map((i) => inputs[i]);
   const P = frames.map((f) => f.positionUm);
@@ -238,7 +237,7 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   const g = geometry(W, H, frames[0].displayTopRow ?? 'first');
   const wavelengthNm = opts.wavelengthNm ?? 550;
   const eps = opts.obstruction ?? 0;
-  const notes: string[] = [];
+  const notes: string[] = [...setupNotes];
 
   for (const f of frames) {
     const clean = f.stars.filter((s: Star) => s.flags.length === 0).length;
@@ -678,8 +677,8 @@ function throughFocusFindings(r: ThroughFocusResult, g: Geometry): Finding[] {
 }
 
 /** CLI-facing: `through-focus --at UM=FRAME ...` on analyses (extras from frame-extras.ts when the pixels were at hand). */
-export function runThroughFocus(items: readonly { positionUm: number; analysis: AnalysisLike; label?: string; profiles?: (StarProfile | null)[] | null; stamps?: StarStamp[] | null }[], opts: ThroughFocusOptions = {}): ThroughFocusResult {
-  return throughFocus(items.map((it) => ({ ...fromAnalysis(it.analysis, it.label), positionUm: it.positionUm, profiles: it.profiles ?? null, stamps: it.stamps ?? null })), opts);
+export function runThroughFocus(items: readonly { positionUm: number; analysis: AnalysisLike; label?: string; identity?: FrameIdentity | null; profiles?: (StarProfile | null)[] | null; stamps?: StarStamp[] | null }[], opts: ThroughFocusOptions = {}): ThroughFocusResult {
+  return throughFocus(items.map((it) => ({ ...fromAnalysis(it.analysis, it.label, it.identity), positionUm: it.positionUm, profiles: it.profiles ?? null, stamps: it.stamps ?? null })), opts);
 }
 
 export function formatThroughFocus(r: ThroughFocusResult): string {
