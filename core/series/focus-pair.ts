@@ -55,8 +55,12 @@ export interface FocusPairResult {
   defocus: { centreUm: number; centreErrUm: number; corners: FocusPairCorner[] };
   /** Best focus at the corners minus at the centre, µm (> 0 = the corners want the sensor farther from the lens), as in through-focus. */
   curvature: { cornerUm: number; cornerErrUm: number; significant: boolean };
-  /** |sagittal minus tangential focus| at the corners, µm: sizes alone do not tell its sign. Significant: it improves the fit by 3 sigma and exceeds 3 errors. */
-  astigmatism: { magnitudeUm: number; magnitudeErrUm: number; significant: boolean };
+  /**
+   * |sagittal minus tangential focus| at the corners, µm: sizes alone do not tell its sign. The term
+   * is included in the model when it improves the fit by 3 sigma (then it has an error); significant
+   * when it is also 3 errors from zero.
+   */
+  astigmatism: { included: boolean; magnitudeUm: number; magnitudeErrUm: number | null; significant: boolean };
   /**
    * Model check: the mean residual size of each zone of each frame against its error. A model that
    * misses structure leaves zones off by more than their noise; the errors are scaled up by
@@ -109,7 +113,7 @@ function zoneCheck(data: DefocusData, params: Float64Array, fit: DefocusFit, g: 
 }
 
 export interface FocusPairOptions {
-  /** Fit the astigmatic size term (default true). */
+  /** Let the astigmatic size term join the model when the data ask for it (default true). */
   astigmatism?: boolean;
 }
 
@@ -145,7 +149,8 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
     }
   }
   const stepQ = u.sqrtK !== null ? u.sqrtK * stepUm : null;
-  const spec: DefocusSpec = { tilt: true, curvature: true, pair: { stepQ }, astigmatism: opts.astigmatism ?? true };
+  const plain: DefocusSpec = { tilt: true, curvature: true, pair: { stepQ } };
+  const astSpec: DefocusSpec = { ...plain, astigmatism: true };
   // Starts: both signs of the first frame's single-frame solutions, plus the generic grid. The
   // astigmatic term starts off zero (its gradient vanishes there) and at the size of the blur.
   const single: DefocusData = { n: A.cols.n, u: data.u.subarray(0, A.cols.n), v: data.v.subarray(0, A.cols.n), T: data.T.subarray(0, A.cols.n), sig: data.sig.subarray(0, A.cols.n), frame: null, beta };
@@ -163,9 +168,17 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
       starts.push(p);
     }
   }
-  starts.push(...defaultStarts(data, spec).map((p) => { p[P.s] = stepQ ?? sStart; p[P.a4] = a4Start; return p; }));
-  const full = fitDefocus(data, spec, starts);
-  if (!full) throw usage('focus-pair: the focus model could not be fitted to these frames');
+  starts.push(...defaultStarts(data, plain).map((p) => { p[P.s] = stepQ ?? sStart; p[P.a4] = a4Start; return p; }));
+  const full0 = fitDefocus(data, plain, starts);
+  if (!full0) throw usage('focus-pair: the focus model could not be fitted to these frames');
+  // The astigmatic term joins the model when the data ask for it: under the plain fit's weights it
+  // must lower chi^2 by 9 (3 sigma, one parameter). Near zero its gradient vanishes and the fit
+  // degenerates, so a term the data do not ask for is left out rather than fitted at zero.
+  const withAst = opts.astigmatism === false ? null : fitDefocus(data, astSpec, [Object.assign(Float64Array.from(full0.params), { [P.a4]: a4Start }), ...starts.slice(0, 4)], { robust: full0.robust, scatter: full0.scatter });
+  const dchi2Ast = withAst ? Math.max(0, full0.chi2 - withAst.chi2) : 0;
+  const astIncluded = !!withAst && dchi2Ast >= 9;
+  const spec = astIncluded ? astSpec : plain;
+  const full = astIncluded ? withAst! : full0;
   const fixed = { robust: full.robust, scatter: full.scatter };
   // Keep the step's sign (the model is symmetric under a -> -a, s -> -s when s is free).
   const canon = (p: Float64Array) => {
@@ -193,10 +206,6 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
   const noTiltSpec = { ...spec, tilt: false };
   const noTilt = fitDefocus(data, noTiltSpec, defaultStarts(data, noTiltSpec).map((p) => { p[P.s] = stepQ ?? sStart; p[P.a4] = a4Start; return p; }).concat([Float64Array.from(best)]), fixed);
   const dchi2 = noTilt ? Math.max(0, noTilt.chi2 - full.chi2) / scale2 : 0;
-  // The astigmatic term's worth: |a4| is biased up from zero, so it must also improve the fit (3 sigma, one parameter).
-  const noAstSpec = { ...spec, astigmatism: false };
-  const noAst = spec.astigmatism ? fitDefocus(data, noAstSpec, [Object.assign(Float64Array.from(best), { [P.a4]: 0 })], fixed) : null;
-  const dchi2Ast = noAst ? Math.max(0, noAst.chi2 - full.chi2) / scale2 : 0;
   // Bootstrap over stars of both frames.
   const rand = rng(99);
   const boot: Float64Array[] = [];
@@ -235,7 +244,8 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
   const cornerUm = -toUm(best[P.a3]);
   const cornerErrUm = errOf((p) => -toUm(p[P.a3]));
   const astUm = (p: Float64Array) => (2 * Math.abs(p[P.a4])) / sK;
-  const astErr = errOf(astUm);
+  const astErr = astIncluded ? errOf(astUm) : null;
+  const astValue = astIncluded ? astUm(best) : withAst ? astUm(canon(withAst.params)) : 0;
   const significant = dchi2 >= 16 && Math.hypot(acrossX, acrossY) > 3 * Math.hypot(errX, errY);
   const signResolved = signD >= 9;
   const notes: string[] = [...setupNotes];
@@ -255,7 +265,7 @@ export function focusPair(near: FrameInput, far: FrameInput, stepUm: number, opt
     },
     defocus: { centreUm: toUm(best[P.a0]), centreErrUm: errOf((p) => toUm(p[P.a0])), corners },
     curvature: { cornerUm, cornerErrUm, significant: Math.abs(cornerUm) >= 3 * cornerErrUm },
-    astigmatism: { magnitudeUm: astUm(best), magnitudeErrUm: astErr, significant: dchi2Ast >= 9 && astUm(best) >= 3 * astErr },
+    astigmatism: { included: astIncluded, magnitudeUm: astValue, magnitudeErrUm: astErr, significant: astIncluded && dchi2Ast / scale2 >= 9 && astValue >= 3 * (astErr ?? Infinity) },
     modelCheck: check,
     moffatBeta: beta,
     stepScale: stepQ !== null ? 1 : null,
@@ -309,7 +319,7 @@ export function formatFocusPair(r: FocusPairResult): string {
   const lines = [
     `Focus pair (step ${fmt(r.stepUm, 1)} µm): sign ${r.signResolved ? 'resolved' : 'NOT resolved'} (${fmt(r.signSignificance, 1)} sigma)`,
     `  tilt (change of best focus): across the width ${fmt(t.acrossFrameUm.x, 1)} ± ${fmtErr(t.acrossFrameErrUm.x)} µm, across the height ${fmt(t.acrossFrameUm.y, 1)} ± ${fmtErr(t.acrossFrameErrUm.y)} µm, axis ${fmt(t.axisDeg, 0)}°${t.significant ? '' : ' (not significant)'}`,
-    `  curvature: corners ${fmt(r.curvature.cornerUm, 1)} ± ${fmtErr(r.curvature.cornerErrUm)} µm from the centre${r.curvature.significant ? '' : ' (not significant)'}; astigmatism ${fmt(r.astigmatism.magnitudeUm, 1)} ± ${fmtErr(r.astigmatism.magnitudeErrUm)} µm at the corners${r.astigmatism.significant ? '' : ' (not significant)'}`,
+    `  curvature: corners ${fmt(r.curvature.cornerUm, 1)} ± ${fmtErr(r.curvature.cornerErrUm)} µm from the centre${r.curvature.significant ? '' : ' (not significant)'}; astigmatism ${r.astigmatism.included ? `${fmt(r.astigmatism.magnitudeUm, 1)} ± ${fmtErr(r.astigmatism.magnitudeErrUm)} µm at the corners${r.astigmatism.significant ? '' : ' (not significant)'}` : 'not needed by the fit'}`,
     `  first frame's focus error: centre ${fmt(r.defocus.centreUm, 1)} µm; corners ${r.defocus.corners.map((c) => `${c.name} ${fmt(c.defocusUm, 1)}`).join(', ')} µm (positive = sensor behind focus)`,
     ...r.findings.map((f) => `  ${f.message}`),
   ];

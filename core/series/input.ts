@@ -40,11 +40,11 @@ export function checkFrame(f: FrameInput, what: string): void {
   if (!(f.width >= 8 && f.height >= 8)) throw usage(`${what}: frame size ${f.width} x ${f.height} is not usable`);
 }
 
-/** Two star lists that are the same measurement (every star at the same place with the same flux). */
+/** Two star lists that are the same measurement (every star at the same place with the same flux and size). */
 function sameStars(a: readonly Star[], b: readonly Star[]): boolean {
   if (a === b) return a.length > 0;
   if (a.length !== b.length || a.length === 0) return false;
-  for (let i = 0; i < a.length; i++) if (a[i].x !== b[i].x || a[i].y !== b[i].y || a[i].flux !== b[i].flux) return false;
+  for (let i = 0; i < a.length; i++) if (a[i].x !== b[i].x || a[i].y !== b[i].y || a[i].flux !== b[i].flux || a[i].fwhmPx !== b[i].fwhmPx || a[i].hfdPx !== b[i].hfdPx) return false;
   return true;
 }
 
