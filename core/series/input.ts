@@ -40,14 +40,6 @@ export function checkFrame(f: FrameInput, what: string): void {
   if (!(f.width >= 8 && f.height >= 8)) throw usage(`${what}: frame size ${f.width} x ${f.height} is not usable`);
 }
 
-/** Two star lists that are the same measurement (every star at the same place with the same flux and size). */
-function sameStars(a: readonly Star[], b: readonly Star[]): boolean {
-  if (a === b) return a.length > 0;
-  if (a.length !== b.length || a.length === 0) return false;
-  for (let i = 0; i < a.length; i++) if (a[i].x !== b[i].x || a[i].y !== b[i].y || a[i].flux !== b[i].flux || a[i].fwhmPx !== b[i].fwhmPx || a[i].hfdPx !== b[i].hfdPx) return false;
-  return true;
-}
-
 export interface SetupCheck {
   /** Refuse plate scales that differ by more than this fraction (null: only warn). Default 0.02. */
   scaleTolerance?: number | null;
@@ -57,8 +49,8 @@ export interface SetupCheck {
 
 /**
  * Frames of one series must come from one camera and setting: the same size, the same camera
- * (when the files name one), the same plate scale (when known), and no frame twice (same pixels, or
- * the same stars when the pixels are not at hand). Refuses with a usage error; returns warnings.
+ * (when the files name one), the same plate scale (when known), and no picture twice (the same
+ * pixel hash; frames without a hash are not compared). Refuses with a usage error; returns warnings.
  */
 export function checkSameSetup(command: string, frames: readonly FrameInput[], names?: readonly string[], opts: SetupCheck = {}): string[] {
   const warnings: string[] = [];
@@ -77,8 +69,7 @@ export function checkSameSetup(command: string, frames: readonly FrameInput[], n
       if (a.camera && b.camera && a.camera !== b.camera) {
         throw usage(`${command}: the frames come from different cameras (${name(j)}: "${a.camera}", ${name(i)}: "${b.camera}"); take every frame with one camera`);
       }
-      const same = a.pixelsHash && b.pixelsHash ? a.pixelsHash === b.pixelsHash : sameStars(a.stars, b.stars);
-      if (same) throw usage(`${command}: ${name(j)} and ${name(i)} are the same picture (identical pixels): give each frame once, each taken at its own setting`);
+      if (a.pixelsHash && b.pixelsHash && a.pixelsHash === b.pixelsHash) throw usage(`${command}: ${name(j)} and ${name(i)} are the same picture (identical pixels): give each frame once, each taken at its own setting`);
     }
   }
   const scales = frames.map((f) => f.optics.plateScaleArcsecPerPx);
