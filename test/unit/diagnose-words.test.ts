@@ -51,7 +51,7 @@ describe('which side must come toward the lens', () => {
 
   it('says the changes with their signs, µm and ±', () => {
     const g = geometry(W, H, 'first');
-    expect(acrossWords(g, { x: -22, y: 11.9 }, { x: 0.5, y: 0.46 })).toBe('−22 ± 0.5 µm from left to right and +11.9 ± 0.46 µm from top to bottom');
+    expect(acrossWords(g, { x: -22, y: 11.9 }, { x: 0.5, y: 0.46 })).toBe('−22 ± 0.5 µm from left to right and +12 ± 0.46 µm from top to bottom');
     expect(fmtSigned(0)).toBe('0.0');
   });
 });
