@@ -67,7 +67,9 @@ const OPTICS_HELP = `  --focal-length MM     focal length (overrides the files' 
 const HELP_COMPARE = `usage: skyloupe compare A B [options]
 
 Two frames of the same site and camera through two lenses or settings. Gives a verdict
-per zone (centre, edges, corners): which is sharper and rounder, and how sure.
+per zone (centre, edges, corners): which is sharper and rounder, and how sure. Frames of
+different sizes or cameras, the same picture twice, or plate scales more than twice
+apart are refused.
 
 options:
 ${OPTICS_HELP}`;
@@ -76,15 +78,19 @@ const HELP_SWEEP = `usage: skyloupe sweep --at MM=FRAME --at MM=FRAME ... [optio
 
 Frames taken at known spacer distances (MM, e.g. --at 55.0=a.fits --at 55.5=b.fits).
 Fits the corner aberration against distance and gives the best spacing and its
-uncertainty. Refocus the centre the same way at every step.
+uncertainty. Refocus the centre the same way at every step. Three frames at least, of
+one camera at one setting (same size, camera and plate scale), each a picture of its own.
 
 options:
 ${OPTICS_HELP}`;
 
 const HELP_FOCUS_PAIR = `usage: skyloupe focus-pair NEAR FAR --step UM [options]
 
-Two frames a known focus step apart (UM, micrometres at the sensor, FAR minus NEAR)
-resolve which side of the sensor is too close: the signed defocus plane.
+Two frames a known focus step apart (UM, micrometres at the sensor, FAR minus NEAR;
+positive = FAR taken with the sensor farther from the lens) tell which side of the
+sensor must come toward the lens. The tilt is the change of best-focus position across
+the width and height, with field curvature (and astigmatism when the stars show it), in
+the same terms as through-focus.
 
 options:
   --step UM             the focus step between the two frames, micrometres
