@@ -75,7 +75,7 @@ export function tiltAdvice(g: Geometry, t: { acrossFrameUm: { x: number | null; 
   const ax = t.acrossFrameUm.x, ay = t.acrossFrameUm.y;
   if (t.signResolved && ax !== null && ay !== null) {
     const s = tiltSides(g, { x: ax, y: ay });
-    return `the ${s.toward} side of the sensor must come toward the lens (or the ${s.away} side away from it): its stars focus with the sensor nearer the lens`;
+    return `the ${s.toward} side of the sensor must come toward the lens (its stars focus with the sensor nearer the lens), or the ${s.away} side away from it`;
   }
   const a = towards(g, (t.axisDeg ?? 0) + 180), b = towards(g, t.axisDeg ?? 0);
   return `either the ${a} or the ${b} side of the sensor must come toward the lens; one frame cannot tell which (a focus pair or a focus series can)`;

@@ -318,7 +318,7 @@ export function formatFocusPair(r: FocusPairResult): string {
   const t = r.tilt;
   const lines = [
     `Focus pair (step ${fmt(r.stepUm, 1)} µm): sign ${r.signResolved ? 'resolved' : 'NOT resolved'} (${fmt(r.signSignificance, 1)} sigma)`,
-    `  tilt (change of best focus): across the width ${fmt(t.acrossFrameUm.x, 1)} ± ${fmtErr(t.acrossFrameErrUm.x)} µm, across the height ${fmt(t.acrossFrameUm.y, 1)} ± ${fmtErr(t.acrossFrameErrUm.y)} µm, axis ${fmt(t.axisDeg, 0)}°${t.significant ? '' : ' (not significant)'}`,
+    `  tilt (change of best focus): across the width ${fmt(t.acrossFrameUm.x, 1)} ± ${fmtErr(t.acrossFrameErrUm.x)} µm, across the height ${fmt(t.acrossFrameUm.y, 1)} ± ${fmtErr(t.acrossFrameErrUm.y)} µm, axis ${fmt(Math.abs(t.axisDeg) < 0.5 ? 0 : t.axisDeg, 0)}°${t.significant ? '' : ' (not significant)'}`,
     `  curvature: corners ${fmt(r.curvature.cornerUm, 1)} ± ${fmtErr(r.curvature.cornerErrUm)} µm from the centre${r.curvature.significant ? '' : ' (not significant)'}; astigmatism ${r.astigmatism.included ? `${fmt(r.astigmatism.magnitudeUm, 1)} ± ${fmtErr(r.astigmatism.magnitudeErrUm)} µm at the corners${r.astigmatism.significant ? '' : ' (not significant)'}` : 'not needed by the fit'}`,
     `  first frame's focus error: centre ${fmt(r.defocus.centreUm, 1)} µm; corners ${r.defocus.corners.map((c) => `${c.name} ${fmt(c.defocusUm, 1)}`).join(', ')} µm (positive = sensor behind focus)`,
     ...r.findings.map((f) => `  ${f.message}`),

@@ -25,7 +25,7 @@ describe('which side must come toward the lens', () => {
     expect(across.x).toBeCloseTo(-24, 10);
     const g = geometry(W, H, 'first');
     expect(tiltSides(g, across)).toMatchObject({ toward: 'right', away: 'left' });
-    expect(tiltAdvice(g, { acrossFrameUm: across, axisDeg: 0, signResolved: true })).toMatch(/^the right side of the sensor must come toward the lens \(or the left side away from it\)/);
+    expect(tiltAdvice(g, { acrossFrameUm: across, axisDeg: 0, signResolved: true })).toMatch(/^the right side of the sensor must come toward the lens \(its stars focus with the sensor nearer the lens\), or the left side away from it$/);
   });
 
   it('the +y edge farther: its side depends on which row is shown on top', () => {
