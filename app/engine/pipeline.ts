@@ -13,6 +13,7 @@ import { chooseStretch } from './stretch.ts';
 import { makePreview, makeTiles } from './images.ts';
 import type { AnalysisResult, OpticsField, OpticsInput } from '../preload/bridge.ts';
 import { fromAnalysis, type FrameInput } from '../../core/series/index.ts';
+import { identityOf } from '../../core/series/identity.ts';
 
 export interface PipelineInput {
   name: string;
@@ -87,6 +88,7 @@ export async function runPipeline(input: PipelineInput): Promise<PipelineOutput>
   return {
     result: { name: input.name, camera, opticsFrom: from, opticsMissing: missingOptics(report), report, preview, tiles },
     pixels: { data: frame.data, width: frame.width, height: frame.height, flipY },
-    frame: fromAnalysis(analysis, input.name),
+    // the camera and a hash of the pixels let compare and sweep refuse mixed or repeated frames
+    frame: fromAnalysis(analysis, input.name, identityOf(frame)),
   };
 }

@@ -13,6 +13,8 @@ import { simulateToFiles } from '../simulate/write.ts';
 import type { CfaPattern } from '../frame/types.ts';
 import { VERSION } from '../version.ts';
 import { runCompare, formatCompare, runSweep, formatSweep, runFocusPair, formatFocusPair } from '../series/index.ts';
+import type { FrameIdentity } from '../series/input.ts';
+import { identityOf } from '../series/identity.ts';
 import { throughFocusCommand } from './through-focus.ts';
 import type { Frame } from '../frame/types.ts';
 import type { Analysis } from '../analyze.ts';
@@ -65,7 +67,9 @@ const OPTICS_HELP = `  --focal-length MM     focal length (overrides the files' 
 const HELP_COMPARE = `usage: skyloupe compare A B [options]
 
 Two frames of the same site and camera through two lenses or settings. Gives a verdict
-per zone (centre, edges, corners): which is sharper and rounder, and how sure.
+per zone (centre, edges, corners): which is sharper and rounder, and how sure. Frames of
+different sizes or cameras, the same picture twice, or plate scales more than twice
+apart are refused.
 
 options:
 ${OPTICS_HELP}`;
@@ -74,15 +78,19 @@ const HELP_SWEEP = `usage: skyloupe sweep --at MM=FRAME --at MM=FRAME ... [optio
 
 Frames taken at known spacer distances (MM, e.g. --at 55.0=a.fits --at 55.5=b.fits).
 Fits the corner aberration against distance and gives the best spacing and its
-uncertainty. Refocus the centre the same way at every step.
+uncertainty. Refocus the centre the same way at every step. Three frames at least, of
+one camera at one setting (same size, camera and plate scale), each a picture of its own.
 
 options:
 ${OPTICS_HELP}`;
 
 const HELP_FOCUS_PAIR = `usage: skyloupe focus-pair NEAR FAR --step UM [options]
 
-Two frames a known focus step apart (UM, micrometres at the sensor, FAR minus NEAR)
-resolve which side of the sensor is too close: the signed defocus plane.
+Two frames a known focus step apart (UM, micrometres at the sensor, FAR minus NEAR;
+positive = FAR taken with the sensor farther from the lens) tell which side of the
+sensor must come toward the lens. The tilt is the change of best-focus position across
+the width and height, with field curvature (and astigmatism when the stars show it), in
+the same terms as through-focus.
 
 options:
   --step UM             the focus step between the two frames, micrometres
@@ -251,8 +259,9 @@ async function compareCommand(argv: string[], out: (s: string) => void): Promise
   const { values, positionals } = parse(argv, { ...OPTICS_OPTIONS }, 'compare');
   if (values.help) { out(HELP_COMPARE); return 0; }
   if (positionals.length !== 2) throw usage('compare: give two frames, A and B (see skyloupe compare --help)');
-  const [a, b] = await analyzeAll(positionals, userOptics(values, 'compare'));
-  const r = runCompare(a, b, { A: positionals[0], B: positionals[1] });
+  const ids: FrameIdentity[] = [];
+  const [a, b] = await analyzeAll(positionals, userOptics(values, 'compare'), (frame, _a, k) => { ids[k] = identityOf(frame); });
+  const r = runCompare(a, b, { A: positionals[0], B: positionals[1] }, { A: ids[0], B: ids[1] });
   await emit(values, r, formatCompare(r), positionals, out);
   return 0;
 }
@@ -268,8 +277,9 @@ async function sweepCommand(argv: string[], out: (s: string) => void): Promise<n
     if (!m) throw usage(`sweep: --at needs MM=FRAME, got "${spec}"`);
     return { spacingMm: Number(m[1]), file: m[2] };
   });
-  const analyses = await analyzeAll(items.map((i) => i.file), userOptics(values, 'sweep'));
-  const r = runSweep(items.map((it, k) => ({ spacingMm: it.spacingMm, analysis: analyses[k], label: it.file })));
+  const ids: FrameIdentity[] = [];
+  const analyses = await analyzeAll(items.map((i) => i.file), userOptics(values, 'sweep'), (frame, _a, k) => { ids[k] = identityOf(frame); });
+  const r = runSweep(items.map((it, k) => ({ spacingMm: it.spacingMm, analysis: analyses[k], label: it.file, identity: ids[k] })));
   await emit(values, r, formatSweep(r), items.map((i) => i.file), out);
   return 0;
 }
@@ -280,8 +290,9 @@ async function focusPairCommand(argv: string[], out: (s: string) => void): Promi
   if (positionals.length !== 2) throw usage('focus-pair: give two frames, NEAR and FAR (see skyloupe focus-pair --help)');
   const step = values.step === undefined ? undefined : Number(values.step);
   if (step === undefined || !Number.isFinite(step) || step === 0) throw usage('focus-pair: --step UM is needed: the focus step between the frames in micrometres (non-zero)');
-  const [near, far] = await analyzeAll(positionals, userOptics(values, 'focus-pair'));
-  const r = runFocusPair(near, far, step);
+  const ids: FrameIdentity[] = [];
+  const [near, far] = await analyzeAll(positionals, userOptics(values, 'focus-pair'), (frame, _a, k) => { ids[k] = identityOf(frame); });
+  const r = runFocusPair(near, far, step, { near: positionals[0], far: positionals[1] }, { near: ids[0], far: ids[1] });
   await emit(values, r, formatFocusPair(r), positionals, out);
   return 0;
 }

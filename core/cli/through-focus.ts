@@ -5,6 +5,8 @@ import type { Frame } from '../frame/types.ts';
 import { usage } from '../errors.ts';
 import { parse, positiveNumber } from './args.ts';
 import { frameExtras, type FrameExtras } from '../series/frame-extras.ts';
+import type { FrameIdentity } from '../series/input.ts';
+import { identityOf } from '../series/identity.ts';
 import { runThroughFocus, formatThroughFocus, type ThroughFocusResult } from '../series/through-focus.ts';
 import { throughFocusHtml } from '../report/through-focus-html.ts';
 import { writeFileAtomic } from '../report/save.ts';
@@ -105,7 +107,8 @@ export async function throughFocusCommand(argv: string[], out: (s: string) => vo
     }
   }
   const extras: FrameExtras[] = [];
-  const analyses = await deps.analyzeAll(items.map((i) => i.file), user, (frame, a) => { extras.push(frameExtras(frame, a)); });
+  const ids: FrameIdentity[] = [];
+  const analyses = await deps.analyzeAll(items.map((i) => i.file), user, (frame, a, k) => { extras[k] = frameExtras(frame, a); ids[k] = identityOf(frame); });
   let adjusters: { name: string; xPx: number; yPx: number }[] | null = null;
   if (angles && radiusMm !== undefined) {
     const a0 = analyses[0];
@@ -116,7 +119,7 @@ export async function throughFocusCommand(argv: string[], out: (s: string) => vo
     adjusters = angles.map((d) => ({ name: `adjuster at ${d} deg`, xPx: cx + r * Math.cos((d * Math.PI) / 180), yPx: cy + r * Math.sin((d * Math.PI) / 180) }));
   }
   const r: ThroughFocusResult = runThroughFocus(items.map((it, k) => ({
-    positionUm: it.positionUm, analysis: analyses[k], label: it.file, profiles: extras[k].profiles, stamps: extras[k].stamps,
+    positionUm: it.positionUm, analysis: analyses[k], label: it.file, identity: ids[k], profiles: extras[k].profiles, stamps: extras[k].stamps,
   })), {
     wavelengthNm, obstruction, adjusters, screwPitchMm: screwPitchMm ?? null,
     stepUnitUm: stepUnit ?? null, positionsGiven: stepUnit ? items.map((i) => i.given) : null,

@@ -6,6 +6,10 @@
  * equally: one frame gives |delta| only. Fitted by Levenberg-Marquardt from many starts (the
  * surface is V-shaped where best focus crosses the frame), with robust reweighting.
  * A focus pair adds a second frame with q + s (s = sqrt(K) * step), which fixes the sign.
+ * Astigmatism (optional, pairs): the blur ellipse's semi-axes go as |delta -+ z/2| (z = S-T focal
+ * separation), so the second moments add K (delta^2 + (z/2)^2): the size term becomes
+ * q^2 + (a4 r^2)^2 with a4 r^2 = sqrt(K) z / 2, z growing as r^2 (optics.md section 3); it is the
+ * same in both frames of a pair and blind to its own sign.
  */
 import { levenbergMarquardt, robustLinearFit, type LmProblem } from '../field/lsq.ts';
 import { defocusGain, defocusTable, gainAt } from '../field/coma-calibration.ts';
@@ -35,15 +39,17 @@ export function modelT(T0: number, q: number, eps = 0, beta: number | null = nul
   return T0 + q2 * defocusGain((2 * q2) / Math.max(T0, 1e-9), eps, beta).H;
 }
 
-/** Full parameter vector: [T0, T0b, a0, a1, a2, a3, s]. T0b and s are used only for pairs. */
-export const P = { T0: 0, T0b: 1, a0: 2, a1: 3, a2: 4, a3: 5, s: 6 } as const;
-export const NPAR = 7;
+/** Full parameter vector: [T0, T0b, a0, a1, a2, a3, s, a4]. T0b and s are used only for pairs, a4 (astigmatism) when asked for. */
+export const P = { T0: 0, T0b: 1, a0: 2, a1: 3, a2: 4, a3: 5, s: 6, a4: 7 } as const;
+export const NPAR = 8;
 
 export interface DefocusSpec {
   tilt: boolean;
   curvature: boolean;
   /** Pair fits: the step in q units, or null to fit it (then the sign of the step is taken as known, s > 0). */
   pair: { stepQ: number | null } | null;
+  /** Fit the astigmatic size term (a4 r^2)^2 (default false). */
+  astigmatism?: boolean;
 }
 
 export interface DefocusFit {
@@ -62,11 +68,20 @@ function activeIndices(spec: DefocusSpec): number[] {
   if (spec.tilt) a.push(P.a1, P.a2);
   if (spec.curvature) a.push(P.a3);
   if (spec.pair && spec.pair.stepQ === null) a.push(P.s);
+  if (spec.astigmatism) a.push(P.a4);
   return a.sort((x, y) => x - y);
 }
 
 function qOf(p: ArrayLike<number>, u: number, v: number): number {
   return p[P.a0] + p[P.a1] * u + p[P.a2] * v + p[P.a3] * (u * u + v * v);
+}
+
+/** The astigmatic share of the size term, (a4 r^2)^2 (0 when a4 is absent). */
+function astigOf(p: ArrayLike<number>, u: number, v: number): number {
+  const a4 = p[P.a4] ?? 0;
+  if (!a4) return 0;
+  const r2 = u * u + v * v;
+  return a4 * a4 * r2 * r2;
 }
 
 function problem(d: DefocusData, w: Float64Array, active: number[], base: Float64Array): LmProblem {
@@ -84,12 +99,12 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
     n: d.n, y: d.T, w,
     batch(pr, M, g) {
       for (let j = 0; j < na; j++) full[active[j]] = pr[j];
-      const T0 = full[P.T0], T0b = full[P.T0b], a0 = full[P.a0], a1 = full[P.a1], a2 = full[P.a2], a3 = full[P.a3], s = full[P.s];
-      const cT0 = col[P.T0], cT0b = col[P.T0b], c0 = col[P.a0], c1 = col[P.a1], c2 = col[P.a2], c3 = col[P.a3], cs = col[P.s];
+      const T0 = full[P.T0], T0b = full[P.T0b], a0 = full[P.a0], a1 = full[P.a1], a2 = full[P.a2], a3 = full[P.a3], s = full[P.s], a4 = full[P.a4];
+      const cT0 = col[P.T0], cT0b = col[P.T0b], c0 = col[P.a0], c1 = col[P.a1], c2 = col[P.a2], c3 = col[P.a3], cs = col[P.s], c4 = col[P.a4];
       let chi2 = 0;
       // the single-frame fit with tilt and curvature (T0, a0, a1, a2, a3): the normal equations
       // in scalars, the same sums as the general loop below in a third of its time
-      if (!fr && M && g && na === 5 && cT0 === 0 && c0 === 1 && c1 === 2 && c2 === 3 && c3 === 4) {
+      if (!fr && M && g && na === 5 && cT0 === 0 && c0 === 1 && c1 === 2 && c2 === 3 && c3 === 4 && a4 === 0) {
         let m00 = 0, m10 = 0, m11 = 0, m20 = 0, m21 = 0, m22 = 0, m30 = 0, m31 = 0, m32 = 0, m33 = 0;
         let m40 = 0, m41 = 0, m42 = 0, m43 = 0, m44 = 0, g0 = 0, g1 = 0, g2 = 0, g3 = 0, g4 = 0;
         const t0 = Math.max(T0, 1e-9);
@@ -130,16 +145,20 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
         const f = fr ? fr[i] : 0;
         const r2 = u * u + v * v;
         const q = a0 + a1 * u + a2 * v + a3 * r2 + (f ? s : 0);
+        const z = a4 * r2;
+        const Q2 = q * q + z * z;
         const t0 = Math.max(f ? T0b : T0, 1e-9);
-        const y = (2 * q * q) / t0;
+        const y = (2 * Q2) / t0;
         const H = gainAt(table, y, dH);
-        const res = d.T[i] - (t0 + q * q * H);
+        const res = d.T[i] - (t0 + Q2 * H);
         chi2 += wi * res * res;
         if (!M || !g) continue;
         jac.fill(0);
-        // d/dq [q^2 H(y)] = 2q (H + y H'); d/dT0 = 1 - (y^2/2) H'
-        const q2 = 2 * q * (H + y * dH[0]);
+        // d/dQ2 [Q2 H(y)] = H + y H', so d/dq = 2q (H + y H'); d/dT0 = 1 - (y^2/2) H'
+        const gQ = H + y * dH[0];
+        const q2 = 2 * q * gQ;
         const dT0 = 1 - 0.5 * y * y * dH[0];
+        if (c4 >= 0) jac[c4] = 2 * z * r2 * gQ;
         if (f) { if (cT0b >= 0) jac[cT0b] = dT0; } else if (cT0 >= 0) jac[cT0] = dT0;
         if (c0 >= 0) jac[c0] = q2;
         if (c1 >= 0) jac[c1] = q2 * u;
@@ -162,12 +181,15 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
       const v = d.v[i];
       const f = d.frame ? d.frame[i] : 0;
       const q = qOf(full, u, v) + (f ? full[P.s] : 0);
+      const z = full[P.a4] * (u * u + v * v);
+      const Q2 = q * q + z * z;
       const t0 = Math.max(f ? full[P.T0b] : full[P.T0], 1e-9);
-      const y = (2 * q * q) / t0;
+      const y = (2 * Q2) / t0;
       const gn = defocusGain(y, eps, beta);
       if (jac) {
         jac.fill(0);
         const g = 2 * q * (gn.H + y * gn.dH);
+        if (col[P.a4] >= 0) jac[col[P.a4]] = 2 * z * (u * u + v * v) * (gn.H + y * gn.dH);
         const c0 = f ? P.T0b : P.T0;
         if (col[c0] >= 0) jac[col[c0]] = 1 - 0.5 * y * y * gn.dH;
         if (col[P.a0] >= 0) jac[col[P.a0]] = g;
@@ -176,7 +198,7 @@ function problem(d: DefocusData, w: Float64Array, active: number[], base: Float6
         if (col[P.a3] >= 0) jac[col[P.a3]] = g * (u * u + v * v);
         if (col[P.s] >= 0 && f) jac[col[P.s]] = g;
       }
-      return t0 + q * q * gn.H;
+      return t0 + Q2 * gn.H;
     },
   };
 }
@@ -201,6 +223,7 @@ function solveActive(d: DefocusData, w: Float64Array, spec: DefocusSpec, start: 
   const base = Float64Array.from(start);
   if (!spec.tilt) { base[P.a1] = 0; base[P.a2] = 0; }
   if (!spec.curvature) base[P.a3] = 0;
+  if (!spec.astigmatism) base[P.a4] = 0;
   if (spec.pair && spec.pair.stepQ !== null) base[P.s] = spec.pair.stepQ;
   const pr = problem(d, w, active, base);
   const r = levenbergMarquardt(pr, active.map((k) => base[k]), 60);
@@ -350,8 +373,7 @@ export function fitDefocus(d: DefocusData, spec: DefocusSpec, starts: Float64Arr
     const res = new Float64Array(n);
     for (let i = 0; i < n; i++) {
       const fr = d.frame ? d.frame[i] : 0;
-      const q = qOf(best.params, d.u[i], d.v[i]) + (fr ? best.params[P.s] : 0);
-      res[i] = d.T[i] - modelT(fr ? best.params[P.T0b] : best.params[P.T0], q, d.eps ?? 0, d.beta ?? null);
+      res[i] = d.T[i] - sizeAt(best.params, d, i);
     }
     const medZ = (s: number) => medianOf(Float64Array.from(res, (r, i) => (r * r) / (d.sig[i] * d.sig[i] + s * s)));
     if (medZ(0) <= CHI2_1_MEDIAN) scatter = 0;
@@ -398,15 +420,21 @@ export function qAt(params: ArrayLike<number>, u: number, v: number): number {
   return qOf(params, u, v);
 }
 
+/** The model's size T of star i of d under params (its frame's core, step and astigmatic term). */
+export function sizeAt(params: ArrayLike<number>, d: DefocusData, i: number): number {
+  const f = d.frame ? d.frame[i] : 0;
+  const q = qOf(params, d.u[i], d.v[i]) + (f ? params[P.s] : 0);
+  const Q = Math.sqrt(q * q + astigOf(params, d.u[i], d.v[i]));
+  return modelT(f ? params[P.T0b] : params[P.T0], Q, d.eps ?? 0, d.beta ?? null);
+}
+
 /** chi^2 of fixed parameters under a previous fit's robust weights and scatter. */
 export function chi2At(d: DefocusData, params: ArrayLike<number>, weightsFrom: DefocusFit): number {
   let chi2 = 0;
   for (let i = 0; i < d.n; i++) {
     const w = weightsFrom.robust[i] / (d.sig[i] * d.sig[i] + weightsFrom.scatter * weightsFrom.scatter);
     if (!(w > 0)) continue;
-    const f = d.frame ? d.frame[i] : 0;
-    const q = qOf(params, d.u[i], d.v[i]) + (f ? params[P.s] : 0);
-    const r = d.T[i] - modelT(f ? params[P.T0b] : params[P.T0], q, d.eps ?? 0, d.beta ?? null);
+    const r = d.T[i] - sizeAt(params, d, i);
     chi2 += w * r * r;
   }
   return chi2;

@@ -3,7 +3,7 @@ import type { Geometry } from '../field/geometry.ts';
 import type { Units } from './context.ts';
 import type { Diagnosis, Finding } from './types.ts';
 import type { FieldMap } from '../field/types.ts';
-import { axisWords, fmt, fmtErr } from './words.ts';
+import { axisWords, fmt, fmtErr, tiltAdvice } from './words.ts';
 
 /** Below this median FWHM (px) stars are too undersampled for shapes (Howell's sampling parameter, optics.md 1.6 and 7). */
 export const UNDERSAMPLED_FWHM = 1.5;
@@ -91,7 +91,7 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
     out.push({
       code: 'TILT',
       severity: sev((t.worstCornerRatio ?? 1) >= MAJOR_RATIO),
-      message: `Sensor tilt: ${across}, steepest along ${fmt(t.axisDeg, 0)} deg +- ${fmtErr(t.axisErrDeg)} (${axisWords(g, t.axisDeg ?? 0)}; ${sigma(t.significance)}). Softest corner ${worst[0].name} (blur ${fmt(worst[0].blurDiameterPx, 1)} px), sharpest ${best.name} (${fmt(best.blurDiameterPx, 1)} px). One frame cannot tell which side is too close to the lens: take two frames a known focus step apart and run skyloupe focus-pair to find the side to shim.${shim}`,
+      message: `Sensor tilt: ${across}, steepest along ${fmt(t.axisDeg, 0)} deg +- ${fmtErr(t.axisErrDeg)} (${axisWords(g, t.axisDeg ?? 0)}; ${sigma(t.significance)}). Softest corner ${worst[0].name} (blur ${fmt(worst[0].blurDiameterPx, 1)} px), sharpest ${best.name} (${fmt(best.blurDiameterPx, 1)} px). ${capital(tiltAdvice(g, t))}: take two frames a known focus step apart and run skyloupe focus-pair, or a focus series with skyloupe through-focus.${shim}`,
       numbers: {
         acrossWidthUm: t.acrossFrameUm.x, acrossHeightUm: t.acrossFrameUm.y, acrossWidthErrUm: t.acrossFrameErrUm.x, acrossHeightErrUm: t.acrossFrameErrUm.y,
         acrossWidthBlurPx: t.acrossFrameBlurPx.x, acrossHeightBlurPx: t.acrossFrameBlurPx.y,

@@ -34,7 +34,11 @@ export interface TiltDiagnosis {
   /** Direction of steepest focus change, degrees mod 180 in (-90, 90]. */
   axisDeg: number | null;
   axisErrDeg: number | null;
-  /** Focus change across the full width (x) and height (y), um at the sensor; absolute values while signResolved is false. */
+  /**
+   * Change of best-focus position across the full width (x, right minus left) and height (y, +y minus
+   * y = 0), µm at the sensor, the meaning shared with focus-pair and through-focus (DESIGN.md);
+   * absolute values while signResolved is false (one frame: always).
+   */
   acrossFrameUm: { x: number | null; y: number | null };
   acrossFrameErrUm: { x: number | null; y: number | null };
   /** The same as change of geometric blur-disk diameter, px (available without optics). */

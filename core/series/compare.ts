@@ -9,7 +9,7 @@ import { starColumns } from '../field/quantities.ts';
 import { clippedMean, medianWithErr } from '../field/stats.ts';
 import type { Finding } from '../diagnose/types.ts';
 import { fmt } from '../diagnose/words.ts';
-import { checkFrame, fromAnalysis, type AnalysisLike, type FrameInput } from './input.ts';
+import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameIdentity, type FrameInput } from './input.ts';
 
 export type ZoneName = 'center' | 'edges' | 'corners';
 export type Better = 'A' | 'B' | 'tie';
@@ -84,14 +84,14 @@ function zoneValues(f: FrameInput, scale: number): Record<ZoneName, ZoneValue> {
 export function compareFrames(a: FrameInput, b: FrameInput): CompareResult {
   checkFrame(a, 'compare A');
   checkFrame(b, 'compare B');
-  const notes: string[] = [];
+  // Two lenses on one camera: sizes, cameras and identical frames are refused; plate scales may
+  // differ (compared in arcsec) up to a factor 2, beyond which the sizes mostly measure focal length.
+  const notes = checkSameSetup('compare', [a, b], ['A', 'B'], { scaleTolerance: null, scaleRatioLimit: 2 });
   const psA = a.optics.plateScaleArcsecPerPx;
   const psB = b.optics.plateScaleArcsecPerPx;
   const arcsec = typeof psA === 'number' && typeof psB === 'number' && psA > 0 && psB > 0;
   if (!arcsec) {
-    notes.push('sizes are compared in pixels because a plate scale is unknown; with different focal lengths or pixel sizes, give them so the comparison is in arcsec');
-  } else if (Math.abs(psA - psB) / psA > 0.02) {
-    notes.push(`plate scales differ (${fmt(psA, 3)} and ${fmt(psB, 3)} arcsec/px): sizes compared in arcsec`);
+    notes.push('sizes are compared in pixels because a plate scale is unknown; with different focal lengths, give them so the comparison is in arcsec');
   }
   const nA = a.optics.fNumber;
   const nB = b.optics.fNumber;
@@ -121,16 +121,16 @@ export function compareFrames(a: FrameInput, b: FrameInput): CompareResult {
     const where = z === 'center' ? 'In the centre' : z === 'edges' ? 'At the edges' : 'In the corners';
     const sizes = `${labels.A} ${fmt(v.a.fwhm, 2)} ${unit}, ${labels.B} ${fmt(v.b.fwhm, 2)} ${unit}`;
     const message = v.better === 'tie'
-      ? `${where} the two are alike (${sizes}; difference ${fmt(v.differencePct, 1)} +- ${fmt(v.differenceErrPct, 1)} %, within the noise or under ${MIN_PCT} %).`
-      : `${where} ${v.better === 'A' ? labels.A : labels.B} is sharper: ${sizes} (${fmt(Math.abs(v.differencePct ?? 0), 1)} % +- ${fmt(v.differenceErrPct, 1)} %, ${fmt(v.significance, 1)} sigma).`;
+      ? `${where} the two are alike (${sizes}; difference ${fmt(v.differencePct, 1)} ± ${fmt(v.differenceErrPct, 1)} %, within the noise or under ${MIN_PCT} %).`
+      : `${where} ${v.better === 'A' ? labels.A : labels.B} is sharper: ${sizes} (${fmt(Math.abs(v.differencePct ?? 0), 1)} ± ${fmt(v.differenceErrPct, 1)} %, ${fmt(v.significance, 1)} sigma).`;
     return { code: `COMPARE_${z.toUpperCase()}`, severity: 'info' as const, message, numbers: { better: v.better, a: v.a.fwhm, b: v.b.fwhm, differencePct: v.differencePct, significance: v.significance } };
   });
   return { schema: 'skyloupe.compare/1', unit, labels, zones, notes, findings };
 }
 
 /** CLI-facing: compare two analyses. */
-export function runCompare(a: AnalysisLike, b: AnalysisLike, labels: { A?: string; B?: string } = {}): CompareResult {
-  return compareFrames(fromAnalysis(a, labels.A), fromAnalysis(b, labels.B));
+export function runCompare(a: AnalysisLike, b: AnalysisLike, labels: { A?: string; B?: string } = {}, ids: { A?: FrameIdentity | null; B?: FrameIdentity | null } = {}): CompareResult {
+  return compareFrames(fromAnalysis(a, labels.A, ids.A), fromAnalysis(b, labels.B, ids.B));
 }
 
 export function formatCompare(r: CompareResult): string {

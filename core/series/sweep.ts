@@ -12,7 +12,7 @@ import { rng, gauss } from '../field/stats.ts';
 import type { Finding } from '../diagnose/types.ts';
 import { fmt } from '../diagnose/words.ts';
 import { usage } from '../errors.ts';
-import { checkFrame, fromAnalysis, type AnalysisLike, type FrameInput } from './input.ts';
+import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameIdentity, type FrameInput } from './input.ts';
 
 export interface SweepPointInput extends FrameInput {
   readonly spacingMm: number;
@@ -51,7 +51,10 @@ export interface SweepResult {
   minimum: SweepFit | null;
   /** How the corner pattern turns as the spacing grows (this system's own rule, measured). */
   trend: 'radial-with-more-spacing' | 'tangential-with-more-spacing' | null;
+  /** How the estimate was found; without one, a whole sentence that follows "No best spacing found." */
   note: string;
+  /** Warnings about the inputs (plate scales that differ a little). */
+  notes: string[];
   findings: Finding[];
 }
 
@@ -156,12 +159,21 @@ function minimumOf(x: number[], y: number[], s: number[], origin: number, lo: nu
 }
 
 export function sweepFrames(inputs: readonly SweepPointInput[]): SweepResult {
-  if (!Array.isArray(inputs) || inputs.length < 2) throw usage('sweep: give at least two frames at different spacings (--at MM=FRAME), better four or more');
+  if (!Array.isArray(inputs) || inputs.length < 3) {
+    throw usage(`sweep: ${inputs?.length ?? 0} frame${inputs?.length === 1 ? '' : 's'} cannot show where the corner stars turn from one orientation to the other; give at least three frames at different spacings (--at MM=FRAME), five or more are better`);
+  }
+  inputs.forEach((p, i) => checkFrame(p, `sweep frame ${p.label ?? i + 1}`));
   const spacings = inputs.map((p) => p.spacingMm);
   if (spacings.some((s) => !Number.isFinite(s))) throw usage('sweep: every spacing must be a number of millimetres');
-  if (new Set(spacings).size !== spacings.length) throw usage('sweep: two frames have the same spacing');
-  const points: SweepPoint[] = [...inputs].sort((a, b) => a.spacingMm - b.spacingMm).map((p, i) => {
-    checkFrame(p, `sweep frame ${i + 1}`);
+  const seen = new Map<number, number>();
+  inputs.forEach((p, i) => {
+    const j = seen.get(p.spacingMm);
+    if (j !== undefined) throw usage(`sweep: ${inputs[j].label ?? `frame ${j + 1}`} and ${p.label ?? `frame ${i + 1}`} have the same spacing (${p.spacingMm} mm); give each frame its own spacer distance`);
+    seen.set(p.spacingMm, i);
+  });
+  // A spacer changes the focal length by far less than this; more is another lens or camera.
+  const notes = checkSameSetup('sweep', inputs, undefined, { scaleTolerance: 0.05 });
+  const points: SweepPoint[] = [...inputs].sort((a, b) => a.spacingMm - b.spacingMm).map((p) => {
     const d = diagnose(p.stars, { width: p.width, height: p.height, optics: p.optics, displayTopRow: p.displayTopRow }).diagnosis;
     return {
       spacingMm: p.spacingMm, label: p.label ?? null, starsUsed: d.starsUsed,
@@ -213,7 +225,8 @@ export function sweepFrames(inputs: readonly SweepPointInput[]): SweepResult {
     const slope = zc ? zc.coef[1] : 0;
     const meanD = yD.length ? yD.reduce((s, v) => s + v, 0) / yD.length : 0;
     const toward = slope !== 0 ? (meanD / slope > 0 ? 'shorter' : 'longer') : null;
-    note = `no best spacing inside the sweep: neither a sign change of the corner elongation nor a size minimum${toward ? `; the trend points to ${toward} spacings: extend the sweep that way` : ''}`;
+    // A whole sentence: the page and the CLI put it after "No best spacing found."
+    note = `Neither a sign change of the corner elongation nor a smallest corner size lies inside the sweep (${fmt(lo, 2)} to ${fmt(hi, 2)} mm)${toward ? `; the trend points to ${toward} spacings: extend the sweep that way` : ''}.`;
   }
   const slope = zc ? zc.coef[1] : 0;
   const trend = zc && useZ ? (slope > 0 ? 'radial-with-more-spacing' : 'tangential-with-more-spacing') : null;
@@ -221,25 +234,27 @@ export function sweepFrames(inputs: readonly SweepPointInput[]): SweepResult {
   if (best !== null) {
     findings.push({
       code: 'SWEEP_BEST', severity: 'info',
-      message: `Best spacing ${fmt(best, 2)} mm +- ${fmt(unc, 2)} mm (${evidence === 'both' ? 'sign change of the corner elongation and smallest corner stars agree' : evidence === 'zero-crossing' ? 'where the corner elongation changes sign' : 'smallest corner stars'}, from ${points.length} frames).${trend ? ` For this system the corners turn ${trend.startsWith('radial') ? 'radial' : 'tangential'} as the spacing grows.` : ''}`,
+      message: `Best spacing ${fmt(best, 2)} ± ${fmt(unc, 2)} mm (${evidence === 'both' ? 'sign change of the corner elongation and smallest corner stars agree' : evidence === 'zero-crossing' ? 'where the corner elongation changes sign' : 'smallest corner stars'}, from ${points.length} frames).${trend ? ` For this system the corners turn ${trend.startsWith('radial') ? 'radial' : 'tangential'} as the spacing grows.` : ''}`,
       numbers: { bestSpacingMm: best, uncertaintyMm: unc, evidence, frames: points.length },
     });
   } else {
-    findings.push({ code: 'SWEEP_NONE', severity: 'minor', message: `${note[0].toUpperCase()}${note.slice(1)}.`, numbers: { frames: points.length } });
+    findings.push({ code: 'SWEEP_NONE', severity: 'minor', message: `No best spacing found. ${note}`, numbers: { frames: points.length } });
   }
-  return { schema: 'skyloupe.sweep/1', points, bestSpacingMm: best, uncertaintyMm: unc, evidence, zeroCrossing: zc, minimum: mn, trend, note, findings };
+  for (const n of notes) findings.push({ code: 'SWEEP_INPUT', severity: 'info', message: `${n[0].toUpperCase()}${n.slice(1)}.` });
+  return { schema: 'skyloupe.sweep/1', points, bestSpacingMm: best, uncertaintyMm: unc, evidence, zeroCrossing: zc, minimum: mn, trend, note, notes, findings };
 }
 
 /** CLI-facing: `sweep --at MM=FRAME ...` on analyses. */
-export function runSweep(items: readonly { spacingMm: number; analysis: AnalysisLike; label?: string }[]): SweepResult {
-  return sweepFrames(items.map((it) => ({ ...fromAnalysis(it.analysis, it.label), spacingMm: it.spacingMm })));
+export function runSweep(items: readonly { spacingMm: number; analysis: AnalysisLike; label?: string; identity?: FrameIdentity | null }[]): SweepResult {
+  return sweepFrames(items.map((it) => ({ ...fromAnalysis(it.analysis, it.label, it.identity), spacingMm: it.spacingMm })));
 }
 
 export function formatSweep(r: SweepResult): string {
-  const lines = ['Spacing sweep: corner radial-minus-tangential moment D and corner size excess E (px^2):'];
+  const lines = ['Spacing sweep: corner radial-minus-tangential moment D and corner size excess E (px²):'];
   for (const p of r.points) {
-    lines.push(`  ${fmt(p.spacingMm, 2).padStart(8)} mm  D ${fmt(p.radMinusTanPx2, 3).padStart(7)} +- ${fmt(p.radMinusTanErrPx2, 3)}  E ${fmt(p.cornerExcessPx2, 3).padStart(7)} +- ${fmt(p.cornerExcessErrPx2, 3)}  ${p.pattern}${p.label ? `  ${p.label}` : ''}`);
+    lines.push(`  ${fmt(p.spacingMm, 2).padStart(8)} mm  D ${fmt(p.radMinusTanPx2, 3).padStart(7)} ± ${fmt(p.radMinusTanErrPx2, 3)}  E ${fmt(p.cornerExcessPx2, 3).padStart(7)} ± ${fmt(p.cornerExcessErrPx2, 3)}  ${p.pattern}${p.label ? `  ${p.label}` : ''}`);
   }
-  lines.push(r.bestSpacingMm !== null ? `  best spacing ${fmt(r.bestSpacingMm, 2)} +- ${fmt(r.uncertaintyMm, 2)} mm (${r.evidence}): ${r.note}` : `  ${r.note}`);
+  lines.push(r.bestSpacingMm !== null ? `  best spacing ${fmt(r.bestSpacingMm, 2)} ± ${fmt(r.uncertaintyMm, 2)} mm (${r.evidence}): ${r.note}` : `  No best spacing found. ${r.note}`);
+  for (const n of r.notes) lines.push(`  note: ${n}`);
   return lines.join('\n');
 }

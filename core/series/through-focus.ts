@@ -13,10 +13,10 @@ import { geometry, sideName, type Geometry } from '../field/geometry.ts';
 import { adaptiveDims } from '../field/zones.ts';
 import { isUsable } from '../field/quantities.ts';
 import { axisDeg, median, madSigma } from '../field/stats.ts';
-import { fmt } from '../diagnose/words.ts';
+import { acrossWords, fmt, fmtErr, tiltAdvice, tiltSides } from '../diagnose/words.ts';
 import type { Finding } from '../diagnose/types.ts';
 import { usage } from '../errors.ts';
-import { checkFrame, fromAnalysis, type AnalysisLike, type FrameInput } from './input.ts';
+import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameIdentity, type FrameInput } from './input.ts';
 import { matchSeries } from './match.ts';
 import { curveAt, fitCurves, starVertex, vertexOf, type CurveFit, type Vertex, type ZoneCurve } from './focus-curve.ts';
 import { drawParameters, fitSurface, meanStd, surfaceAt, surfaceRange } from './focus-surface.ts';
@@ -140,6 +140,8 @@ export interface ThroughFocusResult {
     /** Direction of steepest change of best focus, degrees mod 180 (pixel axes). */
     axisDeg: number;
     axisErrDeg: number | null;
+    /** A focus series always settles the sign (the field shared with the single frame and the focus pair). */
+    signResolved: true;
     significant: boolean;
     significance: number;
     /** µm of best-focus change per mm across the sensor = mrad (optics.md §4), when the pixel size is known. */
@@ -212,14 +214,6 @@ function summary(z: ZoneCurve | null, v: Vertex | null): CurveSummary {
   };
 }
 
-/** The sides of the frame a direction (pixel axes) points to, as displayed. */
-function sideOf(g: Geometry, deg: number): string {
-  const r = (deg * Math.PI) / 180;
-  const sx = Math.abs(Math.cos(r)) > 0.38 ? Math.sign(Math.cos(r)) : 0;
-  const sy = Math.abs(Math.sin(r)) > 0.38 ? Math.sign(Math.sin(r)) : 0;
-  return sideName(g, sx, sy);
-}
-
 export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFocusOptions = {}): ThroughFocusResult {
   if (!Array.isArray(inputs) || inputs.length < 3) {
     throw usage(inputs?.length === 2
@@ -233,10 +227,9 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   const distinct = new Set(inputs.map((f) => f.positionUm));
   if (distinct.size === 1) throw usage(`through-focus: every frame is at the same position (${inputs[0].positionUm} um): step the focuser between frames`);
   if (distinct.size < 3) throw usage(`through-focus: the frames sit at only ${distinct.size} different positions; a focus curve needs three or more (five or more across focus are better)`);
+  // One camera at one setting; focusing changes the focal length by far less than 5 %.
+  const setupNotes = checkSameSetup('through-focus', inputs, inputs.map((f) => `the frame at ${f.positionUm} µm`), { scaleTolerance: 0.05 });
   const W = inputs[0].width, H = inputs[0].height;
-  for (const f of inputs) {
-    if (f.width !== W || f.height !== H) throw usage(`through-focus: the frames differ in size (${W}x${H} and ${f.width}x${f.height}${f.label ? `, ${f.label}` : ''}): they must come from one camera and setting`);
-  }
   const order = inputs.map((_, i) => i).sort((a, b) => inputs[a].positionUm - inputs[b].positionUm);
   const frames = order.map((i) => inputs[i]);
   const P = frames.map((f) => f.positionUm);
@@ -244,7 +237,7 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
   const g = geometry(W, H, frames[0].displayTopRow ?? 'first');
   const wavelengthNm = opts.wavelengthNm ?? 550;
   const eps = opts.obstruction ?? 0;
-  const notes: string[] = [];
+  const notes: string[] = [...setupNotes];
 
   for (const f of frames) {
     const clean = f.stars.filter((s: Star) => s.flags.length === 0).length;
@@ -400,6 +393,7 @@ export function throughFocus(inputs: readonly FocusFrameInput[], opts: ThroughFo
       acrossFrameErrUm: { x: e(1) * (W / S), y: e(2) * (H / S) },
       axisDeg: axis,
       axisErrDeg: meanStd(axes).std,
+      signResolved: true,
       significant: chi2 >= 13.8,
       significance: Math.sqrt(chi2),
       tiltMrad: pixelUm ? gradUmPerPx / (pixelUm / 1000) : null,
@@ -610,12 +604,12 @@ function throughFocusFindings(r: ThroughFocusResult, g: Geometry): Finding[] {
   const out: Finding[] = [];
   const cfz = r.criticalFocusZone;
   const h = cfz?.halfWidthUm ?? null;
-  const cfzWords = cfz ? ` (critical focus zone +-${fmt(cfz.halfWidthUm, 1)} um at f/${fmt(cfz.fNumber, 1)} and ${fmt(cfz.wavelengthNm, 0)} nm)` : '';
+  const cfzWords = cfz ? ` (critical focus zone ±${fmt(cfz.halfWidthUm, 1)} µm at f/${fmt(cfz.fNumber, 1)} and ${fmt(cfz.wavelengthNm, 0)} nm)` : '';
   if (r.bestFocusUm !== null) {
-    const parts = [`Best focus on average over the frame: ${fmt(r.bestFocusUm, 1)} +- ${fmt(r.bestFocusErrUm, 1)} um`];
-    if (r.centreFocusUm !== null) parts.push(`the centre alone: ${fmt(r.centreFocusUm, 1)} +- ${fmt(r.centreFocusErrUm, 1)} um`);
+    const parts = [`Best focus on average over the frame: ${fmt(r.bestFocusUm, 1)} ± ${fmt(r.bestFocusErrUm, 1)} µm`];
+    if (r.centreFocusUm !== null) parts.push(`the centre alone: ${fmt(r.centreFocusUm, 1)} ± ${fmt(r.centreFocusErrUm, 1)} µm`);
     if (r.bestFieldFocusUm !== null && r.fieldFocusSpreadUm !== null) {
-      parts.push(`the best compromise for the whole field: ${fmt(r.bestFieldFocusUm, 1)} +- ${fmt(r.bestFieldFocusErrUm, 1)} um, where no point of the frame is more than ${fmt(r.fieldFocusSpreadUm / 2, 1)} um from its own focus${cfzWords}`);
+      parts.push(`the best compromise for the whole field: ${fmt(r.bestFieldFocusUm, 1)} ± ${fmt(r.bestFieldFocusErrUm, 1)} µm, where no point of the frame is more than ${fmt(r.fieldFocusSpreadUm / 2, 1)} µm from its own focus${cfzWords}`);
     }
     const tooDeep = h !== null && r.fieldFocusSpreadUm !== null && r.fieldFocusSpreadUm / 2 > h;
     out.push({
@@ -628,21 +622,18 @@ function throughFocusFindings(r: ThroughFocusResult, g: Geometry): Finding[] {
   if (t) {
     const total = Math.hypot(t.acrossFrameUm.x, t.acrossFrameUm.y);
     if (t.significant) {
-      // Best focus rises toward `uphill`: that side wants the sensor farther from the lens.
-      const uphill = (Math.atan2(r.surface!.coef.yUm, r.surface!.coef.xUm) * 180) / Math.PI;
-      const far = sideOf(g, uphill);
-      const near = sideOf(g, uphill + 180);
-      const moves = t.moves.map((m) => `${m.name} ${m.moveUm >= 0 ? 'away from' : 'toward'} the lens by ${fmt(Math.abs(m.moveUm), 1)} +- ${fmt(m.moveErrUm, 1)} um${m.turns !== null ? ` (${fmt(Math.abs(m.turns), 2)} turn)` : ''}`).join('; ');
+      const moves = t.moves.map((m) => `${m.name} ${m.moveUm >= 0 ? 'away from' : 'toward'} the lens by ${fmt(Math.abs(m.moveUm), 1)} ± ${fmtErr(m.moveErrUm)} µm${m.turns !== null ? ` (${fmt(Math.abs(m.turns), 2)} turn)` : ''}`).join('; ');
       const worst = Math.max(...t.moves.map((m) => Math.abs(m.moveUm)));
+      const sides = tiltSides(g, t.acrossFrameUm);
       out.push({
         code: 'THROUGH_FOCUS_TILT', severity: h !== null && worst > h ? 'major' : h !== null ? 'minor' : 'major',
-        message: `The sensor is tilted against the focal surface: the ${near} side must come toward the lens (the ${far} side's stars focus with the sensor farther out). Best focus changes by ${fmt(t.acrossFrameUm.x, 1)} +- ${fmt(t.acrossFrameErrUm.x, 1)} um across the width and ${fmt(t.acrossFrameUm.y, 1)} +- ${fmt(t.acrossFrameErrUm.y, 1)} um across the height (${fmt(t.significance, 1)} sigma)${t.tiltMrad !== null ? `, ${fmt(t.tiltMrad, 2)} um per mm` : ''}. Keeping the centre, move ${moves}.${h !== null && worst <= h ? ' The largest move is within the critical focus zone.' : ''} A mirror or flip in the image path swaps sides: check which physical side of the camera that is.`,
-        numbers: { acrossWidthUm: t.acrossFrameUm.x, acrossHeightUm: t.acrossFrameUm.y, axisDeg: t.axisDeg, tiltMrad: t.tiltMrad, significance: t.significance, nearSide: near, farSide: far },
+        message: `The sensor is tilted against the focal surface: ${tiltAdvice(g, t)}. Best focus changes by ${acrossWords(g, t.acrossFrameUm, t.acrossFrameErrUm)} (${fmt(t.significance, 1)} sigma)${t.tiltMrad !== null ? `, ${fmt(t.tiltMrad, 2)} µm per mm` : ''}. Keeping the centre, move ${moves}.${h !== null && worst <= h ? ' The largest move is within the critical focus zone.' : ''} A mirror or flip in the image path swaps sides: check which physical side of the camera that is.`,
+        numbers: { acrossWidthUm: t.acrossFrameUm.x, acrossHeightUm: t.acrossFrameUm.y, axisDeg: t.axisDeg, tiltMrad: t.tiltMrad, significance: t.significance, towardLens: sides.toward, awayFromLens: sides.away },
       });
     } else {
       out.push({
         code: 'THROUGH_FOCUS_LEVEL', severity: 'info',
-        message: `No significant tilt: best focus changes by ${fmt(t.acrossFrameUm.x, 1)} +- ${fmt(t.acrossFrameErrUm.x, 1)} um across the width and ${fmt(t.acrossFrameUm.y, 1)} +- ${fmt(t.acrossFrameErrUm.y, 1)} um across the height.`,
+        message: `No significant tilt: best focus changes by ${acrossWords(g, t.acrossFrameUm, t.acrossFrameErrUm)}.`,
         numbers: { acrossWidthUm: t.acrossFrameUm.x, acrossHeightUm: t.acrossFrameUm.y, magnitudeUm: total },
       });
     }
@@ -652,7 +643,7 @@ function throughFocusFindings(r: ThroughFocusResult, g: Geometry): Finding[] {
     const toward = c.cornerUm < 0;
     out.push({
       code: 'THROUGH_FOCUS_CURVATURE', severity: h !== null && Math.abs(c.cornerUm) > h ? 'minor' : 'info',
-      message: `Field curvature: the corners focus ${fmt(Math.abs(c.cornerUm), 1)} +- ${fmt(c.cornerErrUm, 1)} um ${toward ? 'nearer the lens' : 'farther from the lens'} than the centre${c.radiusMm !== null ? ` (a focal surface of radius about ${fmt(Math.abs(c.radiusMm), 0)} mm)` : ''}. A field flattener at its right spacing, or focusing a little ${toward ? 'inward' : 'outward'} of the centre's best focus, shares the blur between centre and corners.`,
+      message: `Field curvature: the corners focus ${fmt(Math.abs(c.cornerUm), 1)} ± ${fmt(c.cornerErrUm, 1)} µm ${toward ? 'nearer the lens' : 'farther from the lens'} than the centre${c.radiusMm !== null ? ` (a focal surface of radius about ${fmt(Math.abs(c.radiusMm), 0)} mm)` : ''}. A field flattener at its right spacing, or focusing a little ${toward ? 'inward' : 'outward'} of the centre's best focus, shares the blur between centre and corners.`,
       numbers: { cornerUm: c.cornerUm, cornerErrUm: c.cornerErrUm, radiusMm: c.radiusMm },
     });
   }
@@ -660,23 +651,23 @@ function throughFocusFindings(r: ThroughFocusResult, g: Geometry): Finding[] {
   if (a && a.significant) {
     out.push({
       code: 'THROUGH_FOCUS_ASTIGMATISM', severity: h !== null && Math.abs(a.separationUm) > h ? 'minor' : 'info',
-      message: `Astigmatism: at the corners the sagittal focus lies ${fmt(Math.abs(a.separationUm), 1)} +- ${fmt(a.separationErrUm, 1)} um ${a.separationUm > 0 ? 'farther from' : 'nearer'} the lens than the tangential focus; between them stars turn from ${a.separationUm > 0 ? 'tangential to radial' : 'radial to tangential'} streaks as the sensor moves out. With a corrector, its spacing is the usual cause.`,
+      message: `Astigmatism: at the corners the sagittal focus lies ${fmt(Math.abs(a.separationUm), 1)} ± ${fmt(a.separationErrUm, 1)} µm ${a.separationUm > 0 ? 'farther from' : 'nearer'} the lens than the tangential focus; between them stars turn from ${a.separationUm > 0 ? 'tangential to radial' : 'radial to tangential'} streaks as the sensor moves out. With a corrector, its spacing is the usual cause.`,
       numbers: { separationUm: a.separationUm, separationErrUm: a.separationErrUm },
     });
   }
   const s = r.spherical;
   if (s.longitudinalUm !== null) {
     if (s.significant) {
-      const blur = s.blurDiameterUm !== null ? `its smallest blur is ${fmt(s.blurDiameterUm, 1)} um across (${fmt(s.blurDiameterPx, 2)} px)` : `its smallest blur is ${fmt(s.blurDiameterPx, 2)} px across`;
+      const blur = s.blurDiameterUm !== null ? `its smallest blur is ${fmt(s.blurDiameterUm, 1)} µm across (${fmt(s.blurDiameterPx, 2)} px)` : `its smallest blur is ${fmt(s.blurDiameterPx, 2)} px across`;
       out.push({
         code: 'THROUGH_FOCUS_SPHERICAL', severity: s.blurDiameterPx !== null && s.blurDiameterPx > 1 ? 'minor' : 'info',
-        message: `Spherical aberration, ${s.kind}: the marginal rays focus ${fmt(Math.abs(s.longitudinalUm), 1)} +- ${fmt(s.errUm, 1)} um ${s.longitudinalUm < 0 ? 'nearer the lens' : 'farther from the lens'} than the central ones, so defocused stars show ${s.longitudinalUm < 0 ? 'a bright rim inside focus and a soft edge outside' : 'a soft edge inside focus and a bright rim outside'}; ${blur}. Stopping down shrinks it fastest of all aberrations, about as (N1/N2)^3: one stop to about 35 %, two stops to 12.5 %.`,
+        message: `Spherical aberration, ${s.kind}: the marginal rays focus ${fmt(Math.abs(s.longitudinalUm), 1)} ± ${fmt(s.errUm, 1)} µm ${s.longitudinalUm < 0 ? 'nearer the lens' : 'farther from the lens'} than the central ones, so defocused stars show ${s.longitudinalUm < 0 ? 'a bright rim inside focus and a soft edge outside' : 'a soft edge inside focus and a bright rim outside'}; ${blur}. Stopping down shrinks it fastest of all aberrations, about as (N1/N2)^3: one stop to about 35 %, two stops to 12.5 %.`,
         numbers: { longitudinalUm: s.longitudinalUm, errUm: s.errUm, transverseUm: s.transverseUm, blurDiameterUm: s.blurDiameterUm, blurDiameterPx: s.blurDiameterPx },
       });
     } else {
       out.push({
         code: 'THROUGH_FOCUS_SPHERICAL_NONE', severity: 'info',
-        message: `No significant spherical aberration: the light at the star's core and at its rim focus at the same position within ${fmt(3 * (s.errUm ?? NaN), 1)} um (${fmt(s.longitudinalUm, 1)} +- ${fmt(s.errUm, 1)} um).`,
+        message: `No significant spherical aberration: the light at the star's core and at its rim focus at the same position within ${fmt(3 * (s.errUm ?? NaN), 1)} µm (${fmt(s.longitudinalUm, 1)} ± ${fmt(s.errUm, 1)} µm).`,
         numbers: { longitudinalUm: s.longitudinalUm, errUm: s.errUm },
       });
     }
@@ -686,23 +677,23 @@ function throughFocusFindings(r: ThroughFocusResult, g: Geometry): Finding[] {
 }
 
 /** CLI-facing: `through-focus --at UM=FRAME ...` on analyses (extras from frame-extras.ts when the pixels were at hand). */
-export function runThroughFocus(items: readonly { positionUm: number; analysis: AnalysisLike; label?: string; profiles?: (StarProfile | null)[] | null; stamps?: StarStamp[] | null }[], opts: ThroughFocusOptions = {}): ThroughFocusResult {
-  return throughFocus(items.map((it) => ({ ...fromAnalysis(it.analysis, it.label), positionUm: it.positionUm, profiles: it.profiles ?? null, stamps: it.stamps ?? null })), opts);
+export function runThroughFocus(items: readonly { positionUm: number; analysis: AnalysisLike; label?: string; identity?: FrameIdentity | null; profiles?: (StarProfile | null)[] | null; stamps?: StarStamp[] | null }[], opts: ThroughFocusOptions = {}): ThroughFocusResult {
+  return throughFocus(items.map((it) => ({ ...fromAnalysis(it.analysis, it.label, it.identity), positionUm: it.positionUm, profiles: it.profiles ?? null, stamps: it.stamps ?? null })), opts);
 }
 
 export function formatThroughFocus(r: ThroughFocusResult): string {
-  const lines = [`Through focus: ${r.positionsUm.length} frames from ${fmt(r.positionsUm[0], 1)} to ${fmt(r.positionsUm[r.positionsUm.length - 1], 1)} um, ${r.stars.length} stars followed, ${r.grid.cols} x ${r.grid.rows} zones`];
+  const lines = [`Through focus: ${r.positionsUm.length} frames from ${fmt(r.positionsUm[0], 1)} to ${fmt(r.positionsUm[r.positionsUm.length - 1], 1)} µm, ${r.stars.length} stars followed, ${r.grid.cols} x ${r.grid.rows} zones`];
   lines.push('  best focus per zone as displayed (um, from the rms-radius curves; positions larger = sensor farther from the lens):');
   const rowOrder = Array.from({ length: r.grid.rows }, (_, i) => (r.frame.displayTopRow === 'last' ? r.grid.rows - 1 - i : i));
   for (const row of rowOrder) {
-    lines.push('   ' + r.zones.filter((z) => z.row === row).map((z) => (z.bestFocusUm === null ? '     -      ' : `${fmt(z.bestFocusUm, 1).padStart(6)}+-${fmt(z.errUm, 1).padEnd(4)}`)).join(' '));
+    lines.push('   ' + r.zones.filter((z) => z.row === row).map((z) => (z.bestFocusUm === null ? '     -      ' : `${fmt(z.bestFocusUm, 1).padStart(6)}±${fmt(z.errUm, 1).padEnd(4)}`)).join(' '));
   }
-  if (r.tilt) lines.push(`  tilt: ${fmt(r.tilt.acrossFrameUm.x, 1)} +- ${fmt(r.tilt.acrossFrameErrUm.x, 1)} um across the width, ${fmt(r.tilt.acrossFrameUm.y, 1)} +- ${fmt(r.tilt.acrossFrameErrUm.y, 1)} um across the height${r.tilt.significant ? '' : ' (not significant)'}`);
-  if (r.curvature) lines.push(`  curvature: corners ${fmt(r.curvature.cornerUm, 1)} +- ${fmt(r.curvature.cornerErrUm, 1)} um from the centre${r.curvature.significant ? '' : ' (not significant)'}`);
-  if (r.astigmatism) lines.push(`  astigmatism: sagittal minus tangential focus at the corners ${fmt(r.astigmatism.separationUm, 1)} +- ${fmt(r.astigmatism.separationErrUm, 1)} um${r.astigmatism.significant ? '' : ' (not significant)'}`);
+  if (r.tilt) lines.push(`  tilt: ${fmt(r.tilt.acrossFrameUm.x, 1)} ± ${fmt(r.tilt.acrossFrameErrUm.x, 1)} µm across the width, ${fmt(r.tilt.acrossFrameUm.y, 1)} ± ${fmt(r.tilt.acrossFrameErrUm.y, 1)} µm across the height${r.tilt.significant ? '' : ' (not significant)'}`);
+  if (r.curvature) lines.push(`  curvature: corners ${fmt(r.curvature.cornerUm, 1)} ± ${fmt(r.curvature.cornerErrUm, 1)} µm from the centre${r.curvature.significant ? '' : ' (not significant)'}`);
+  if (r.astigmatism) lines.push(`  astigmatism: sagittal minus tangential focus at the corners ${fmt(r.astigmatism.separationUm, 1)} ± ${fmt(r.astigmatism.separationErrUm, 1)} µm${r.astigmatism.significant ? '' : ' (not significant)'}`);
   const s = r.spherical;
-  lines.push(`  spherical aberration: ${s.longitudinalUm === null ? s.note : `${s.kind}, ${fmt(s.longitudinalUm, 1)} +- ${fmt(s.errUm, 1)} um${s.significant ? '' : ' (not significant)'}`}`);
-  lines.push(`  best focus ${fmt(r.bestFocusUm, 1)} +- ${fmt(r.bestFocusErrUm, 1)} um on average; whole-field compromise ${fmt(r.bestFieldFocusUm, 1)} +- ${fmt(r.bestFieldFocusErrUm, 1)} um${r.criticalFocusZone ? `; critical focus zone +-${fmt(r.criticalFocusZone.halfWidthUm, 1)} um (f/${fmt(r.criticalFocusZone.fNumber, 2)}, ${r.criticalFocusZone.wavelengthNm} nm)` : ''}`);
+  lines.push(`  spherical aberration: ${s.longitudinalUm === null ? s.note : `${s.kind}, ${fmt(s.longitudinalUm, 1)} ± ${fmt(s.errUm, 1)} µm${s.significant ? '' : ' (not significant)'}`}`);
+  lines.push(`  best focus ${fmt(r.bestFocusUm, 1)} ± ${fmt(r.bestFocusErrUm, 1)} µm on average; whole-field compromise ${fmt(r.bestFieldFocusUm, 1)} ± ${fmt(r.bestFieldFocusErrUm, 1)} µm${r.criticalFocusZone ? `; critical focus zone ±${fmt(r.criticalFocusZone.halfWidthUm, 1)} µm (f/${fmt(r.criticalFocusZone.fNumber, 2)}, ${r.criticalFocusZone.wavelengthNm} nm)` : ''}`);
   for (const n of r.notes) lines.push(`  note: ${n}`);
   return lines.join('\n');
 }

@@ -391,7 +391,11 @@ function renderOptics(
     opticalCenterPx: field.opticalCenterPx,
     defocusCenterUm: field.defocusCenterUm,
     tilt: {
-      acrossFrameUm: { x: psf.aberrations.tiltXUmAcross, y: psf.aberrations.tiltYUmAcross },
+      // The reports' meaning (DESIGN.md): the change of best-focus position across the frame. A
+      // point whose sensor lies deltaUm behind focus is sharp with the sensor deltaUm nearer the
+      // lens, so best focus changes by minus the focus error's change.
+      acrossFrameUm: { x: -psf.aberrations.tiltXUmAcross + 0, y: -psf.aberrations.tiltYUmAcross + 0 },
+      focusErrorAcrossUm: { x: psf.aberrations.tiltXUmAcross, y: psf.aberrations.tiltYUmAcross },
       slopeUmPerMm: { x: tx, y: ty },
       // µm/mm = mrad (optics.md §4).
       mrad: tau,

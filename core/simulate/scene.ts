@@ -135,8 +135,11 @@ export interface OpticsPsf {
     /** Focus error at the optical centre, µm (positive = sensor behind best focus). Default 0. */
     defocusCenterUm: number;
     /**
-     * Sensor tilt as the focus change across the full frame width / height (µm),
-     * i.e. t_x = tiltXUmAcross / (width * pixelSizeUm / 1000) µm/mm. Defaults 0.
+     * Sensor tilt as the change of the focus error across the full frame width (right minus
+     * left) / height (+y minus y = 0), µm, i.e. t_x = tiltXUmAcross / (width * pixelSizeUm / 1000)
+     * µm/mm. Positive = the +x (+y) edge of the sensor lies farther from the lens, so its stars
+     * focus with the sensor nearer the lens: the best-focus position changes by minus this (the
+     * truth's tilt.acrossFrameUm, in the reports' meaning). Defaults 0.
      */
     tiltXUmAcross: number;
     tiltYUmAcross: number;

@@ -92,6 +92,7 @@ async function dropFile(name: string, bytes: Uint8Array): Promise<void> {
 beforeAll(async () => {
   const work = (dir = mkdtempSync(path.join(os.tmpdir(), 'skyloupe-e2e-')));
   const put = (name: string, bytes: Uint8Array) => { files[name] = path.join(work, name); writeFileSync(files[name], bytes); };
+  put('lens-a.fits', scene(20, {}));
   put('lens-b.fits', scene(21, { tiltXUmAcross: 90, astigmatismUmPerMm2: 1.5 }));
   for (const s of SPACERS) put(`spacer-${s.toFixed(1)}mm.fits`, scene(Math.round(30 + s * 10), { spacingErrorMm: +(s - NOMINAL_SPACER_MM).toFixed(3) }, [900, 630], 420, SWEEP_OPTICS));
   put('broken.fits', new TextEncoder().encode('SIMPLE  =                    T / a header and nothing else'));
@@ -328,7 +329,11 @@ describe('several frames', () => {
     await waitAnalysis(await analysisId());
     await page.keyboard.press('7');
     await page.click('#btn-compare-a-current');
+    // the demo frame (2400 x 1600 px) and lens B (900 x 600 px) cannot be two settings of one camera
     await page.setInputFiles('#compare-b-input', files['lens-b.fits']);
+    await page.waitForFunction(() => (document.querySelector('#message')?.textContent ?? '').includes('differ in size'), null, { timeout: 60_000 });
+    expect(await page.textContent('#message')).toMatch(/compare: the frames differ in size \(.*2400 x 1600 px, .*900 x 600 px\)/);
+    await page.setInputFiles('#compare-a-input', files['lens-a.fits']);
     await page.waitForSelector('.compare-table tbody tr', { timeout: 60_000 });
     const rows = await page.$$eval('.compare-table tbody tr', (els: any[]) => els.map((e) => ({ zone: e.dataset.zone, better: e.dataset.better })));
     expect(rows.map((r: { zone: string }) => r.zone)).toEqual(expect.arrayContaining(['center', 'corners']));

@@ -8,7 +8,8 @@
  * with the scene's focus error at the optical centre defocusCenterUm = P - F0, where F0 is the
  * centre's paraxial focus position. The scene's focus error grows with the sensor tilt and the
  * field curvature (positive = sensor behind focus), so a point's best focus position is
- * F0 - (its extra focus error): the through-focus tilt is minus the scene's tilt across the frame.
+ * F0 - (its extra focus error): the through-focus tilt is minus the scene's tiltXUmAcross, which
+ * the simulator's truth reports as tilt.acrossFrameUm (the reports' meaning).
  */
 import { renderScene } from '../../core/simulate/render.ts';
 import type { SceneInput } from '../../core/simulate/scene.ts';
@@ -81,8 +82,8 @@ export function seriesTruth(s: SeriesScene, rendered: RenderedFrame) {
   const pMm = (s.pixelSizeUm ?? 2.4) / 1000;
   const hCornerMm = 0.5 * Math.hypot(W, H) * pMm;
   return {
-    acrossX: -g.tilt.acrossFrameUm.x as number,
-    acrossY: -g.tilt.acrossFrameUm.y as number,
+    acrossX: g.tilt.acrossFrameUm.x as number,
+    acrossY: g.tilt.acrossFrameUm.y as number,
     cornerUm: -(g.curvature.umPerMm2 as number) * hCornerMm * hCornerMm,
     separationUm: (g.astigmatism.umPerMm2 as number) * hCornerMm * hCornerMm,
     sphericalUm: g.spherical.longitudinalUm as number,

@@ -7,15 +7,18 @@
  * longitudinal one, LSA = 2N x TSA, by (N1/N2)^2; Smith, *Modern Optical Engineering* [MEM]);
  * and the focus pair on two frames of the same series.
  *
- * Signs (recovery-focus-series.ts): the through-focus tilt and curvature are the change of
- * best-focus position, minus the scene's focus-error terms. The focus pair reports the change of
- * the sensor's focus error (> 0 = that side farther from the lens than its focus), the opposite
- * sign of the same tilt.
+ * Signs (recovery-focus-series.ts): every command reports the tilt and curvature as the change of
+ * best-focus position (DESIGN.md), minus the scene's focus-error terms; so does the simulator's
+ * truth (tilt.acrossFrameUm).
  */
 import { describe, expect, it } from 'vitest';
 import { renderSeries, seriesTruth, type RenderedFrame, type SeriesScene } from './recovery-focus-series.ts';
 import { runThroughFocus, formatThroughFocus, type ThroughFocusResult } from '../../core/series/through-focus.ts';
 import { runFocusPair } from '../../core/series/focus-pair.ts';
+import { diagnose } from '../../core/diagnose/index.ts';
+import { tiltAdvice, tiltSides } from '../../core/diagnose/words.ts';
+import { geometry } from '../../core/field/geometry.ts';
+import { ctxOf } from './recovery-render.ts';
 
 const W = 1200, H = 800;
 
@@ -56,20 +59,64 @@ describe('through focus on rendered series', () => {
     expect(near(r.centreFocusUm!, r.centreFocusErrUm!, s.focusUm, 0, 2)).toBe(true);
   }, 240_000);
 
-  it('the focus pair on two frames of a series agrees with the through-focus tilt', async () => {
-    // The focus pair's model is a tilted, curved defocus plane of the medial focus (no
-    // astigmatism, no spherical aberration): a scene it describes.
-    const s: SeriesScene = { seed: 36, focusUm: 10, aberrations: { tiltXUmAcross: 22, tiltYUmAcross: -12 } };
-    const { r, frames, truth } = await run(s, [-60, -30, 0, 30, 60]);
-    const [a, b] = [frames[2], frames[3]];
-    const pair = runFocusPair(a.analysis, b.analysis, b.positionUm - a.positionUm);
-    console.log(`focus pair ${pair.tilt.acrossFrameUm.x.toFixed(1)} +- ${pair.tilt.acrossFrameErrUm.x.toFixed(1)} / ${pair.tilt.acrossFrameUm.y.toFixed(1)} +- ${pair.tilt.acrossFrameErrUm.y.toFixed(1)} (its sign: sensor's focus error); through focus ${r.tilt!.acrossFrameUm.x.toFixed(1)} +- ${r.tilt!.acrossFrameErrUm.x.toFixed(1)} / ${r.tilt!.acrossFrameUm.y.toFixed(1)} +- ${r.tilt!.acrossFrameErrUm.y.toFixed(1)}; truth ${truth.acrossX}/${truth.acrossY}`);
-    expect(pair.signResolved).toBe(true);
-    for (const k of ['x', 'y'] as const) {
-      const diff = pair.tilt.acrossFrameUm[k] + r.tilt!.acrossFrameUm[k];
-      const err = Math.hypot(pair.tilt.acrossFrameErrUm[k], r.tilt!.acrossFrameErrUm[k]);
-      expect(Math.abs(diff)).toBeLessThan(Math.max(3 * err, 0.15 * Math.hypot(truth.acrossX, truth.acrossY)));
+  it('the focus pair on two frames of a series agrees with the through-focus tilt and curvature within their errors, astigmatism in the field', async () => {
+    // Issue 11, "how it is checked": the same frames, tilt 24 / 14 um with curvature and astigmatism.
+    const s: SeriesScene = { seed: 36, focusUm: 10, aberrations: { tiltXUmAcross: 24, tiltYUmAcross: 14, curvatureRadiusMm: 150, astigmatismUmPerMm2: 3 } };
+    const { r, frames, truth } = await run(s);
+    const g = geometry(W, H, frames[0].analysis.frame.displayTopRow);
+    for (const [i, j] of [[3, 4], [2, 4], [3, 5]]) {
+      const [a, b] = [frames[i], frames[j]];
+      const pair = runFocusPair(a.analysis, b.analysis, b.positionUm - a.positionUm);
+      console.log(`focus pair ${a.positionUm}->${b.positionUm}: ${pair.tilt.acrossFrameUm.x.toFixed(1)} +- ${pair.tilt.acrossFrameErrUm.x.toFixed(1)} / ${pair.tilt.acrossFrameUm.y.toFixed(1)} +- ${pair.tilt.acrossFrameErrUm.y.toFixed(1)}, corners ${pair.curvature.cornerUm.toFixed(1)} +- ${pair.curvature.cornerErrUm.toFixed(1)}, astigmatism ${pair.astigmatism.included ? pair.astigmatism.magnitudeUm.toFixed(1) : 'not fitted'}; through focus ${r.tilt!.acrossFrameUm.x.toFixed(1)} +- ${r.tilt!.acrossFrameErrUm.x.toFixed(1)} / ${r.tilt!.acrossFrameUm.y.toFixed(1)} +- ${r.tilt!.acrossFrameErrUm.y.toFixed(1)}, corners ${r.curvature!.cornerUm.toFixed(1)} +- ${r.curvature!.cornerErrUm.toFixed(1)}; truth ${truth.acrossX}/${truth.acrossY}, corners ${truth.cornerUm.toFixed(1)}`);
+      expect(pair.signResolved).toBe(true);
+      // Within the combined errors, or within 8 % of the tilt: on this scene the through-focus
+      // surface comes out about 5 % low (-22.8 +- 0.3 against -24, measured), more than its error
+      // says, while the pair is within its error of the truth (next lines).
+      const size = Math.hypot(truth.acrossX, truth.acrossY);
+      for (const k of ['x', 'y'] as const) {
+        const diff = pair.tilt.acrossFrameUm[k] - r.tilt!.acrossFrameUm[k];
+        expect(Math.abs(diff)).toBeLessThan(Math.max(3 * Math.hypot(pair.tilt.acrossFrameErrUm[k], r.tilt!.acrossFrameErrUm[k]), 0.08 * size));
+      }
+      expect(near(pair.tilt.acrossFrameUm.x, pair.tilt.acrossFrameErrUm.x, truth.acrossX, 0.05)).toBe(true);
+      expect(near(pair.tilt.acrossFrameUm.y, pair.tilt.acrossFrameErrUm.y, truth.acrossY, 0.05)).toBe(true);
+      expect(Math.abs(pair.curvature.cornerUm - r.curvature!.cornerUm)).toBeLessThan(Math.max(3 * Math.hypot(pair.curvature.cornerErrUm, r.curvature!.cornerErrUm), 0.2 * Math.abs(truth.cornerUm)));
+      expect(near(pair.curvature.cornerUm, pair.curvature.cornerErrUm, truth.cornerUm, 0.1)).toBe(true);
+      // One set of words: the side that must come toward the lens is the same in both.
+      const pf = pair.findings.find((f) => f.code === 'FOCUS_PAIR_TILT')!;
+      const tf = r.findings.find((f) => f.code === 'THROUGH_FOCUS_TILT')!;
+      expect(pf.numbers!.towardLens).toBe(tf.numbers!.towardLens);
+      const side = tiltSides(g, { x: truth.acrossX, y: truth.acrossY }).toward;
+      expect(pf.message).toContain(`the ${side} side of the sensor must come toward the lens`);
+      expect(tf.message).toContain(`the ${side} side of the sensor must come toward the lens`);
     }
+    // One frame cannot sign it: its words name the pair's side as one of the two candidates.
+    const one = diagnose(frames[6].analysis.stars, ctxOf(frames[6].analysis)).diagnosis.tilt;
+    const advice = tiltAdvice(g, one);
+    console.log(`one frame: axis ${one.axisDeg?.toFixed(1)} deg, ${advice}`);
+    expect(one.signResolved).toBe(false);
+    expect(advice).toContain(tiltSides(g, { x: truth.acrossX, y: truth.acrossY }).toward);
+  }, 240_000);
+
+  it('geometry: a sensor whose right edge lies farther from the lens is sharp there with the sensor nearer the lens, and every command says the right side must come toward the lens', async () => {
+    // Scene: the focus error grows 20 um from left to right (core/simulate/scene.ts: > 0 = sensor
+    // behind its focus, i.e. farther from the lens). A point delta behind focus comes to focus
+    // when the sensor moves delta toward the lens, so best focus is 20 um lower on the right:
+    // acrossFrameUm.x = -20 (DESIGN.md: right minus left).
+    const s: SeriesScene = { seed: 37, focusUm: 0, aberrations: { tiltXUmAcross: 20 } };
+    const { r, frames, truth } = await run(s, [-60, -30, 0, 30, 60]);
+    expect(truth.acrossX).toBe(-20);
+    expect(r.tilt!.acrossFrameUm.x).toBeLessThan(0);
+    expect(near(r.tilt!.acrossFrameUm.x, r.tilt!.acrossFrameErrUm.x, -20, 0.1)).toBe(true);
+    const pair = runFocusPair(frames[1].analysis, frames[3].analysis, 60);
+    expect(pair.tilt.acrossFrameUm.x).toBeLessThan(0);
+    expect(near(pair.tilt.acrossFrameUm.x, pair.tilt.acrossFrameErrUm.x, -20, 0.1)).toBe(true);
+    for (const m of [r.findings.find((f) => f.code === 'THROUGH_FOCUS_TILT')!.message, pair.findings[0].message]) {
+      expect(m).toMatch(/the right side of the sensor must come toward the lens/);
+    }
+    // The simulator's truth and the corner moves say the same: the right corners move toward the lens.
+    for (const mv of r.tilt!.moves) expect(Math.sign(mv.moveUm)).toBe(mv.xPx > W / 2 ? -1 : 1);
+    const one = diagnose(frames[4].analysis.stars, ctxOf(frames[4].analysis)).diagnosis.tilt;
+    expect(tiltAdvice(geometry(W, H, frames[4].analysis.frame.displayTopRow), one)).toMatch(/either the left or the right side/);
   }, 240_000);
 
   it('under-corrected spherical aberration: kind, size and sign, with a tilt beside it', async () => {

@@ -23,15 +23,18 @@ describe('one frame cannot always tell', () => {
 
 describe('focus pair resolves the sign (optics.md 4, way 1)', () => {
   it('gives the signed plane from two frames 30 um apart', async () => {
+    // The scene's tilt is the change of the focus error (> 0: that edge farther from the lens); the
+    // report gives the change of best-focus position (DESIGN.md), minus it: -15 / +10 um.
     const ab = { tiltXUmAcross: 15, tiltYUmAcross: -10 };
     const near = await renderAndAnalyze(scene({ seed: 11, pixelSizeUm: P, aberrations: { ...ab, defocusCenterUm: 0 } }));
     const far = await renderAndAnalyze(scene({ seed: 12, pixelSizeUm: P, seeingPx: 2.8, aberrations: { ...ab, defocusCenterUm: 30 } }));
     const r = runFocusPair(near.analysis, far.analysis, 30);
-    console.log(`focus pair: ${r.tilt.acrossFrameUm.x.toFixed(1)}/${r.tilt.acrossFrameUm.y.toFixed(1)} um (truth 15/-10), sign ${r.signSignificance.toFixed(0)} sigma, centre ${r.defocus.centreUm.toFixed(1)} um`);
+    console.log(`focus pair: ${r.tilt.acrossFrameUm.x.toFixed(1)}/${r.tilt.acrossFrameUm.y.toFixed(1)} um (truth -15/+10), sign ${r.signSignificance.toFixed(0)} sigma, centre ${r.defocus.centreUm.toFixed(1)} um`);
     expect(r.signResolved).toBe(true);
-    expect(Math.abs(r.tilt.acrossFrameUm.x - 15)).toBeLessThan(0.2 * Math.hypot(15, 10));
-    expect(Math.abs(r.tilt.acrossFrameUm.y + 10)).toBeLessThan(0.2 * Math.hypot(15, 10));
+    expect(Math.abs(r.tilt.acrossFrameUm.x + 15)).toBeLessThan(0.2 * Math.hypot(15, 10));
+    expect(Math.abs(r.tilt.acrossFrameUm.y - 10)).toBeLessThan(0.2 * Math.hypot(15, 10));
     expect(Math.abs(r.defocus.centreUm)).toBeLessThan(3);
-    expect(r.findings[0].message).toMatch(/right side/);
+    // The right edge lies farther from the lens: it must come toward it.
+    expect(r.findings[0].message).toMatch(/right side of the sensor must come toward the lens/);
   });
 });

@@ -34,6 +34,12 @@ beforeAll(() => {
     sc.stars = field.map((f) => ({ x: f.x + 0.7 * k, y: f.y - 0.4 * k, fluxE: f.fluxE }));
     writeFileSync(file(p), fitsBytes(renderScene(sc as unknown as Parameters<typeof renderScene>[0])));
   });
+  // A frame inside focus, for a series that never crosses it.
+  const inside = frameScene(scene, -40, 5) as Record<string, unknown>;
+  inside.stars = field.map((f) => ({ x: f.x + 0.3, y: f.y - 0.2, fluxE: f.fluxE }));
+  writeFileSync(file(-40), fitsBytes(renderScene(inside as unknown as Parameters<typeof renderScene>[0])));
+  // A frame of another camera size.
+  writeFileSync(path.join(dir, 'small.fits'), fitsBytes(renderScene(frameScene({ ...scene, width: 320, height: 210, stars: 60 }, 5, 7) as Parameters<typeof renderScene>[0])));
   // A frame of another field.
   const other = frameScene({ ...scene, seed: 62 }, 5, 9);
   writeFileSync(path.join(dir, 'other.fits'), fitsBytes(renderScene(other as Parameters<typeof renderScene>[0])));
@@ -69,9 +75,25 @@ describe('skyloupe through-focus', () => {
     expect(other.code).toBe(2);
     expect(other.err).toMatch(/does not show the same stars/);
     // Only the frames inside focus: the stars shrink toward the largest position.
-    const short = run(['through-focus', ...positions.slice(0, 2).flatMap((p) => ['--at', `${p}=${file(p)}`]), '--at', `-40=${file(-55)}`]);
+    const short = run(['through-focus', ...[-55, -40, -25].flatMap((p) => ['--at', `${p}=${file(p)}`])]);
     expect(short.code).toBe(2);
     expect(short.err).toMatch(/Extend the series toward larger positions/);
+  });
+
+  it('series commands refuse the same picture twice and frames of different sizes, exit 2 (issue 12 item 4)', () => {
+    for (const [args, msg] of [
+      [['through-focus', '--at', `-25=${file(-25)}`, '--at', `5=${file(5)}`, '--at', `35=${file(-25)}`], /through-focus: .*tf-25\.fits and .*tf-25\.fits are the same picture/],
+      [['compare', file(5), file(5)], /compare: .* are the same picture/],
+      [['sweep', '--at', `55=${file(5)}`, '--at', `56=${file(35)}`, '--at', `57=${file(5)}`], /sweep: .* are the same picture/],
+      [['focus-pair', file(5), file(5), '--step', '30'], /focus-pair: .* are the same picture/],
+      [['compare', file(5), path.join(dir, 'small.fits')], /compare: the frames differ in size \(.*640 x 420 px, .*320 x 210 px\)/],
+      [['sweep', '--at', `55=${file(5)}`, '--at', `56=${file(35)}`], /at least three/],
+    ] as [string[], RegExp][]) {
+      const r = run(args);
+      expect(r.code, args.join(' ')).toBe(2);
+      expect(r.err.trim().split('\n')).toHaveLength(1);
+      expect(r.err).toMatch(msg);
+    }
   });
 
   it('writes the JSON and the HTML page, atomically, and leaves the frames as they were', () => {

@@ -61,8 +61,11 @@ describe('optics renderer', () => {
     expect(d[0] / expectDelta(100)).toBeCloseTo(1, 1);
     expect(Math.abs(d[1] / expectDelta(900) - 1)).toBeLessThan(0.01);
     expect(Math.abs(d[1] - d[0] - (60 * 800) / W)).toBeLessThan(1.0);
-    const tilt = r.truth.global.tilt as { acrossFrameUm: { x: number; y: number }; mrad: number; axisDeg: number };
-    expect(tilt.acrossFrameUm).toEqual({ x: 60, y: 0 });
+    const tilt = r.truth.global.tilt as { acrossFrameUm: { x: number; y: number }; focusErrorAcrossUm: { x: number; y: number }; mrad: number; axisDeg: number };
+    // The right star lies farther behind focus (measured above), so it focuses with the sensor
+    // nearer the lens: best focus changes by minus the focus error across the frame (DESIGN.md).
+    expect(tilt.focusErrorAcrossUm).toEqual({ x: 60, y: 0 });
+    expect(tilt.acrossFrameUm).toEqual({ x: -60, y: 0 });
     expect(tilt.mrad).toBeCloseTo(60 / (W * 3.76e-3), 12); // µm/mm = mrad (optics.md §4)
     expect(tilt.axisDeg).toBe(0);
   });
