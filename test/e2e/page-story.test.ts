@@ -110,6 +110,50 @@ describe('night mode (issue 12 item 1)', () => {
   });
 });
 
+describe('legends, scales and clipping (issue 12 item 7)', () => {
+  it('gives the Sky view a key of its marks and a scale bar that follows the zoom', async () => {
+    await page.click('#tab-sky');
+    await page.waitForSelector('svg#sky-svg g.sky-key');
+    // every kind of mark drawn has a key entry in the same colour
+    const marks = await page.$$eval('svg#sky-svg g.sky-key .key-entry', (els: any[]) => els.map((e) => ({ mark: e.dataset.mark, stroke: e.querySelector('circle')?.getAttribute('stroke'), text: e.textContent })));
+    const drawn = await page.evaluate(() => ({
+      star: document.querySelector('svg#sky-svg g.stars')?.getAttribute('stroke'),
+      flagged: document.querySelector('svg#sky-svg g.flagged')?.getAttribute('stroke'),
+    }));
+    expect(marks.find((m: { mark: string }) => m.mark === 'star')?.stroke).toBe(drawn.star);
+    expect(marks.find((m: { mark: string }) => m.mark === 'flagged')?.stroke).toBe(drawn.flagged);
+    expect(marks.find((m: { mark: string }) => m.mark === 'selected')).toBeTruthy();
+    // the bar's drawn length matches its label on screen: frame px per screen px from the frame's own rectangle
+    const measure = () => page.evaluate(() => {
+      const svg = document.querySelector('svg#sky-svg');
+      const bar = svg.querySelector('g.scale-bar');
+      const frameRect = svg.querySelector('g.zoom-layer > rect:last-of-type').getBoundingClientRect();
+      return {
+        px: Number(bar.dataset.px), barW: bar.querySelector('path').getBoundingClientRect().width,
+        frameW: frameRect.width, label: bar.querySelector('text').textContent,
+      };
+    });
+    const W = report.frame.width;
+    const z1 = await measure();
+    // screen px per frame px = drawn frame width / W; the bar's stroke adds a little width
+    expect(Math.abs(z1.barW - z1.px * (z1.frameW / W))).toBeLessThan(3);
+    // the angle: px x plate scale (report), 1' = 60" (plate scale 206.265 p / f, optics.md section 7)
+    const plate = report.frame.optics.plateScaleArcsecPerPx!;
+    expect(z1.label).toContain(`${z1.px} px`);
+    expect(z1.label).toMatch(/[″′°]/);
+    const minutes = Number(/([\d.]+)′/.exec(z1.label)?.[1]);
+    expect(Math.abs(minutes - (z1.px * plate) / 60)).toBeLessThan(0.6);
+    await page.focus('#view');
+    await page.keyboard.press('+');
+    await page.keyboard.press('+');
+    const z4 = await measure();
+    expect(z4.frameW / z1.frameW).toBeCloseTo(4, 1);
+    expect(Math.abs(z4.barW - z4.px * (z4.frameW / W))).toBeLessThan(3);
+    expect(z4.px).toBeLessThan(z1.px);
+    await page.keyboard.press('0');
+  });
+});
+
 describe('the page itself', () => {
   it('raised no script errors', () => {
     expect(pageErrors).toEqual([]);

@@ -1,7 +1,7 @@
 /** Sky: the frame's picture with the measured stars marked; zoom, pan and pick a star. */
 import { select } from 'd3-selection';
 import { zoom, zoomIdentity, type ZoomTransform } from 'd3-zoom';
-import { skySvg } from '../../../core/report/svg/index.ts';
+import { skyKey, skySvg } from '../../../core/report/svg/index.ts';
 import { h, setMarkup } from '../dom.ts';
 import { state } from '../state.ts';
 import { button, figureWidth, needFrame, toolbar } from '../widgets.ts';
@@ -26,8 +26,14 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   const z = zoom<SVGSVGElement, unknown>().scaleExtent([1, 64])
     .extent([[0, 0], [r.report.frame.width, r.report.frame.height]])
     .translateExtent([[0, 0], [r.report.frame.width, r.report.frame.height]])
-    .on('zoom', (ev: { transform: ZoomTransform }) => { ctx.state.zoomT = ev.transform; layer.attr('transform', ev.transform.toString()); });
+    .on('zoom', (ev: { transform: ZoomTransform }) => {
+      const k0 = ctx.state.zoomT.k;
+      ctx.state.zoomT = ev.transform;
+      layer.attr('transform', ev.transform.toString());
+      if (ev.transform.k !== k0) redrawKey(svg, ctx, r.report.frame.width / w, ev.transform.k);
+    });
   select(svg).call(z).call(z.transform, ctx.state.zoomT);
+  redrawKey(svg, ctx, r.report.frame.width / w, ctx.state.zoomT.k);
   ctx.state.zoomer = z;
   zoomIn.addEventListener('click', () => zoomBy(2));
   zoomOut.addEventListener('click', () => zoomBy(0.5));
@@ -50,6 +56,14 @@ function render(el: HTMLElement, ctx: ViewContext): void {
     if (best >= 0) ctx.selectStar(best);
   });
   if (ctx.state.selected !== null) ctx.selectStar(ctx.state.selected);
+}
+
+/** The key's scale bar follows the zoom (u: figure units per screen px at zoom 1). */
+function redrawKey(svg: SVGSVGElement, ctx: ViewContext, u: number, k: number): void {
+  const old = svg.querySelector('g.sky-key');
+  if (!old || !ctx.state.current) return;
+  old.insertAdjacentHTML('afterend', skyKey(ctx.state.current.report, ctx.theme(), u, k));
+  old.remove();
 }
 
 function skyElement(): SVGSVGElement | null {
