@@ -17,6 +17,7 @@ import { decodeFrame } from '../../core/frame/read.ts';
 import { launch, startServe, type Served } from './browser.ts';
 
 declare const document: any;
+declare const getComputedStyle: any;
 
 let served: Served;
 let ctx: BrowserContext;
@@ -294,6 +295,83 @@ describe('remembered optics (issue 12 item 6)', () => {
     expect(JSON.parse(readFileSync(cams, 'utf8')).cameras['unnamed camera, 640 x 420 px']).toBeUndefined();
     expect(await page.textContent('#optics-why')).toContain('Optics missing');
     expect((await currentReport()).frame.optics.focalLengthMm).toBeNull();
+  });
+});
+
+describe('axes, keys and nothing cut off (issue 12 item 7)', () => {
+  /** Text elements of an SVG that reach outside its drawn box (more than 1 px). */
+  const clipped = (sel: string) => page.evaluate((s: string) => {
+    const svg = document.querySelector(s);
+    const box = svg.getBoundingClientRect();
+    return [...svg.querySelectorAll('text')].filter((t: any) => {
+      const b = t.getBoundingClientRect();
+      return b.width > 0 && (b.left < box.left - 1 || b.right > box.right + 1 || b.top < box.top - 1 || b.bottom > box.bottom + 1);
+    }).map((t: any) => t.textContent);
+  }, sel);
+
+  it('gives the maps and the star stamp a pixel scale and a key, with no text cut off', async () => {
+    await page.click('#btn-demo');
+    await waitAnalysis(await page.getAttribute('body', 'data-analysis'));
+    await page.keyboard.press('2');
+    await page.waitForSelector('svg#shape-svg g.scale-bar');
+    expect(Number(await page.getAttribute('svg#shape-svg g.scale-bar', 'data-px'))).toBeGreaterThan(0);
+    expect(await clipped('svg#shape-svg')).toEqual([]);
+    await page.keyboard.press('3');
+    await page.waitForSelector('svg#size-fwhmPx g.scale-bar');
+    expect(await page.locator('svg#size-fwhmPx linearGradient').count()).toBe(1);
+    expect(await clipped('svg#size-fwhmPx')).toEqual([]);
+    await page.keyboard.press('4');
+    await page.waitForSelector('svg#focus-svg');
+    expect(await clipped('svg#focus-svg')).toEqual([]);
+    // narrow window: the focus plane's words wrap instead of running off
+    await page.setViewportSize({ width: 1100, height: 700 });
+    await page.waitForTimeout(400);
+    expect(await clipped('svg#focus-svg')).toEqual([]);
+    await page.setViewportSize({ width: 1366, height: 768 });
+    await page.waitForTimeout(400);
+    await page.keyboard.press('1');
+    const i = report.stars.findIndex((s) => s.flags.length === 0);
+    await page.click(`svg#sky-svg circle[data-star="${i}"]`, { force: true });
+    await page.waitForSelector('#stamp svg g.scale-bar');
+    expect(await page.locator('#stamp svg g.stamp-key').count()).toBe(1);
+    expect(await clipped('#stamp svg')).toEqual([]);
+  });
+
+  it('shows worded number names, never raw keys or ASCII units', async () => {
+    await page.keyboard.press('6');
+    const labels = await page.$$eval('.finding-numbers th', (els: any[]) => els.map((e) => e.textContent));
+    expect(labels.length).toBeGreaterThan(0);
+    // the issue's examples of raw key names
+    for (const l of labels) expect(l).not.toMatch(/corner eradial|corner e radial|worthwhile to|\berr\b|\bum\b|\bdeg\b/);
+  });
+
+  it('shows a focus ring on the views pane', async () => {
+    await page.keyboard.press('1');
+    await page.keyboard.press('Tab');
+    await page.focus('#view');
+    const ring = await page.evaluate(() => { const s = getComputedStyle(document.querySelector('#view')); return { style: s.outlineStyle, width: parseFloat(s.outlineWidth) }; });
+    expect(ring.style).not.toBe('none');
+    expect(ring.width).toBeGreaterThanOrEqual(2);
+  });
+
+  it('explains the views and the terms in Help', async () => {
+    await page.keyboard.press('?');
+    const text = (await page.textContent('#help-dialog')) ?? '';
+    const labels = await page.$$eval('#tabs [role=tab]', (els: any[]) => els.map((e) => e.textContent.replace(/^\s*\d\s*/, '').trim()));
+    for (const l of labels) expect(text).toContain(l);
+    for (const term of ['FWHM', 'HFD', 'Ellipticity', 'Tilt', 'Coma', 'Field curvature']) expect(text).toContain(term);
+    await page.keyboard.press('Escape');
+  });
+
+  it('keeps the side panel from scrolling sideways on a long file name', async () => {
+    const long = path.join(dir, `${'a-very-long-name-of-a-night-frame-'.repeat(6)}final.png`);
+    writeFileSync(long, readFileSync(files['night-one.png']));
+    const id = await page.getAttribute('body', 'data-analysis');
+    await page.setInputFiles('#file-input', long);
+    await waitAnalysis(id);
+    const side = await page.evaluate(() => { const s = document.querySelector('#side'); return { sw: s.scrollWidth, cw: s.clientWidth }; });
+    expect(side.sw).toBeLessThanOrEqual(side.cw);
+    expect(await page.textContent('#summary')).toContain('final.png');
   });
 });
 

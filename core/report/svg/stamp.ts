@@ -27,7 +27,7 @@ export function stampSvg(st: StampInput, opts: { theme: Theme; size?: number }):
   const beta = 10;
   const norm = 1 / Math.asinh(beta);
   // under the pixels: a scale bar in frame pixels and the grey (or red) key of the stretch
-  const keyH = 58;
+  const keyH = 54;
   const pw = st.w * k;
   const ph = st.h * k;
   let out = svgOpen(pw, ph + keyH, `Stamp of star ${st.star.x.toFixed(1)}, ${st.star.y.toFixed(1)}`, theme, 'stamp-svg');
@@ -57,8 +57,11 @@ export function stampSvg(st: StampInput, opts: { theme: Theme; size?: number }):
   }).join('');
   const ky = ph + 30;
   out += `<defs><linearGradient id="stamp-key" x1="0" x2="1" y1="0" y2="0">${stops}</linearGradient></defs>`;
-  out += `<g class="stamp-key"><rect x="4" y="${r2(ky)}" width="${r2(Math.min(pw - 8, 160))}" height="8" fill="url(#stamp-key)" stroke="${theme.frame}" stroke-width="0.5"/>`;
-  out += text(4, ky + 22, `faintest ${Math.round(lo)} → brightest ${Math.round(hi)} (asinh stretch)`, theme, { size: 10, fill: theme.muted });
+  const barW = pw - 8;
+  out += `<g class="stamp-key"><rect x="4" y="${r2(ky)}" width="${r2(barW)}" height="8" fill="url(#stamp-key)" stroke="${theme.frame}" stroke-width="0.5"/>`;
+  out += text(4, ky + 19, String(Math.round(lo)), theme, { size: 10, fill: theme.muted });
+  out += text(4 + barW, ky + 19, String(Math.round(hi)), theme, { size: 10, fill: theme.muted, anchor: 'end' });
+  out += text(4 + barW / 2, ky + 19, 'pixel value', theme, { size: 10, fill: theme.muted, anchor: 'middle' });
   out += '</g>';
   return out + '</svg>';
 }
