@@ -103,6 +103,7 @@ function registerBridge(): void {
   handle(CHANNELS.stamp, (id, i) => engine.stamp(check.analysisId(id), check.starIndex(i)));
   handle(CHANNELS.compare, (a, b) => engine.compare(check.analysisId(a), check.analysisId(b)));
   handle(CHANNELS.sweep, (points) => engine.sweep(check.sweepPoints(points)));
+  handle(CHANNELS.throughFocus, (req) => engine.throughFocus(check.focusSeries(req)));
   handle(CHANNELS.exportReport, async (id, kind) => {
     const k = check.exportKind(kind);
     const out = engine.exportFile(check.analysisId(id), k);

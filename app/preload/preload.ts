@@ -18,6 +18,7 @@ const bridge: SkyloupeBridge = {
   stamp: (id, i) => ipcRenderer.invoke(CHANNELS.stamp, id, i),
   compare: (a, b) => ipcRenderer.invoke(CHANNELS.compare, a, b),
   sweep: (points) => ipcRenderer.invoke(CHANNELS.sweep, points),
+  throughFocus: (req) => ipcRenderer.invoke(CHANNELS.throughFocus, req),
   exportReport: (id, kind) => ipcRenderer.invoke(CHANNELS.exportReport, id, kind),
   savePng: (filename, bytes) => ipcRenderer.invoke(CHANNELS.savePng, filename, bytes),
   openFileDialog: () => ipcRenderer.invoke(CHANNELS.openFileDialog),
