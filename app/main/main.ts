@@ -120,7 +120,7 @@ function registerBridge(): void {
 }
 
 function buildMenu(): void {
-  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['focus', 'Focus plane'], ['corners', 'Corners'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep']];
+  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['focus', 'Focus plane'], ['corners', 'Corners'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep'], ['distortion', 'Distortion'], ['through-focus', 'Through focus']];
   const openRecent = async (p: string) => {
     try {
       send('open', await readChosen(p));
@@ -152,7 +152,7 @@ function buildMenu(): void {
     {
       label: 'View',
       submenu: [
-        ...views.map(([v, label], i) => ({ label, accelerator: `CmdOrCtrl+${i + 1}`, click: () => send(`view:${v}`) })),
+        ...views.map(([v, label], i) => ({ label, accelerator: i < 9 ? `CmdOrCtrl+${i + 1}` : undefined, click: () => send(`view:${v}`) })),
         { type: 'separator' },
         { label: 'Night Mode', accelerator: 'CmdOrCtrl+Shift+N', click: () => send('night') },
         { label: 'Zoom In', accelerator: 'CmdOrCtrl+=', click: () => send('zoom-in') },

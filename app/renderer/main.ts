@@ -14,7 +14,7 @@ import { viewPng } from './png.ts';
 import { state, theme, type FrameSource } from './state.ts';
 import type { ViewContext } from './context.ts';
 import { VIEWS, viewNamed } from './views/index.ts';
-import { panBy, zoomBy, zoomReset } from './views/sky.ts';
+import { panBy, toggleLabels, zoomBy, zoomReset } from './views/sky.ts';
 import { setCompareFrame } from './views/compare.ts';
 import { showMessage, failureText, setBusy, onProgress } from './messages.ts';
 import { renderSummary, renderOptics, renderStar, selectStar } from './side.ts';
@@ -68,8 +68,8 @@ function buildPage(): void {
     h('dialog', { id: 'help-dialog', 'aria-label': 'Keyboard keys' },
       h('h2', {}, 'Keys'),
       h('table', {}, h('tbody', {}, ...[
-        ['1 – 8', 'switch view'], ['O', 'open a frame'], ['D', 'demo frame'], ['N', 'night mode'], ['E', 'save the HTML report'],
-        ['P', 'save the view as PNG'], ['+  −  0', 'zoom in, out, reset (Sky)'], ['arrows', 'pan (Sky)'], ['[  ]', 'previous / next star (Sky)'],
+        ['1 – 9, T', 'switch view'], ['O', 'open a frame'], ['D', 'demo frame'], ['N', 'night mode'], ['E', 'save the HTML report'],
+        ['P', 'save the view as PNG'], ['+  −  0', 'zoom in, out, reset (Sky)'], ['arrows', 'pan (Sky)'], ['[  ]', 'previous / next star (Sky)'], ['L', 'catalogue names on or off (Sky)'],
         ['Esc', 'stop the analysis, close this'], ['?', 'this list'],
       ].map(([k, v]) => h('tr', {}, h('th', { scope: 'row' }, k), h('td', {}, v))))),
       h('form', { method: 'dialog' }, h('button', { type: 'submit', id: 'btn-help-close' }, 'Close'))),
@@ -256,8 +256,11 @@ function wireInput(): void {
     ev.preventDefault();
     depth = 0;
     overlay.hidden = true;
-    const f = ev.dataTransfer?.files?.[0];
+    const dropped = Array.from(ev.dataTransfer?.files ?? []);
+    const f = dropped[0];
     if (!f) return;
+    const view = viewNamed(state.view);
+    if (view?.drop) { await view.drop(await Promise.all(dropped.map(fileFrom)), ctx); return; }
     const file = await fileFrom(f);
     if (state.view === 'compare') {
       const which = state.compare.a && !state.compare.b ? 'b' : 'a';
@@ -277,6 +280,7 @@ function wireInput(): void {
       case 'o': case 'O': void openDialog(); break;
       case 'd': case 'D': void openMain({ kind: 'demo' }); break;
       case 'n': case 'N': toggleNight(); break;
+      case 'l': case 'L': if (onSky) toggleLabels(ctx); break;
       case 'e': case 'E': void exportKind('html'); break;
       case 'p': case 'P': void exportPng(); break;
       case '?': ($('#help-dialog') as HTMLDialogElement).showModal(); break;

@@ -11,9 +11,11 @@ import { cornersView } from './corners.ts';
 import { findingsView } from './findings.ts';
 import { compareView } from './compare.ts';
 import { sweepView } from './sweep.ts';
+import { distortionView } from './distortion.ts';
+import { throughFocusView } from './through-focus.ts';
 
 export const VIEWS: readonly View[] = [
-  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView,
+  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView, distortionView, throughFocusView,
 ];
 
 export function viewNamed(name: string): View | undefined {

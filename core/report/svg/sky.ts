@@ -1,4 +1,10 @@
-/** The sky: the stretched frame with a marker on every measured star. */
+/**
+ * The sky: the stretched frame with a marker on every measured star. Saturated stars get a
+ * marker of their own (a ring with four ticks, in the "bad" colour): their sizes are not
+ * measurements. The part of the frame that holds sky (report.frame.dataRegion) is outlined: a
+ * fisheye's image disc as a circle, a mask's cells without sky shaded. With `labels`, the stars
+ * matched to the catalogue carry their name or catalogue number.
+ */
 import type { Report } from '../types.ts';
 import type { Preview } from './types.ts';
 import type { Theme } from './theme.ts';
@@ -12,6 +18,22 @@ export interface SkyOptions {
   /** At most this many markers (clean stars first, by signal-to-noise). */
   maxMarkers?: number;
   selected?: number | null;
+  /** Label the stars matched to the catalogue (report.astrometry.matches). Default false. */
+  labels?: boolean;
+  /** At most this many labels, brightest catalogue stars first. */
+  maxLabels?: number;
+}
+
+/** The matched stars to label: brightest first (by catalogue magnitude), at most `max`. */
+export function labelledMatches(report: Report, max: number): { star: number; text: string }[] {
+  const a = report.astrometry;
+  if (!a || !a.solved) return [];
+  return a.matches
+    .filter((m) => report.stars[m.star])
+    .slice()
+    .sort((p, q) => (p.magnitude ?? 99) - (q.magnitude ?? 99))
+    .slice(0, max)
+    .map((m) => ({ star: m.star, text: m.name ? `${m.name} (${m.catalogueId})` : m.catalogueId }));
 }
 
 /** Indices of the stars to mark: clean stars by falling SNR, then flagged ones, at most `max`. */
@@ -37,9 +59,14 @@ export function skySvg(report: Report, opts: SkyOptions): string {
   const s = width / W;
   const m = frameMap(report, 1);
   const minR = 5 / s;
-  const { clean, flagged } = markedStars(report, opts.maxMarkers ?? 4000);
+  const { clean, flagged: setAside } = markedStars(report, opts.maxMarkers ?? 4000);
+  const isSaturated = (i: number) => report.stars[i].flags.includes('saturated');
+  const saturated = setAside.filter(isSaturated);
+  const flagged = setAside.filter((i) => !isSaturated(i));
+  const region = report.frame.dataRegion;
+  const labels = opts.labels ? labelledMatches(report, opts.maxLabels ?? 300) : [];
   let out = svgOpen(W, H, `Sky: ${report.frame.path}, ${clean.length} clean stars marked`, theme, 'sky-svg', { width, height: H * s });
-  out = out.replace('<svg ', `<svg data-clean-marked="${clean.length}" data-flagged-marked="${flagged.length}" preserveAspectRatio="xMidYMid meet" `);
+  out = out.replace('<svg ', `<svg data-clean-marked="${clean.length}" data-flagged-marked="${flagged.length}" data-saturated-marked="${saturated.length}" data-region="${region?.kind ?? 'full'}" data-labels="${labels.length}" preserveAspectRatio="xMidYMid meet" `);
   out += `<defs>${RED_FILTER}</defs><g class="zoom-layer">`;
   if (opts.preview) {
     out += `<image href="${esc(opts.preview.href)}" x="0" y="0" width="${W}" height="${H}" preserveAspectRatio="none"${theme.redImage ? ' filter="url(#sl-red)"' : ''}/>`;
@@ -58,10 +85,55 @@ export function skySvg(report: Report, opts: SkyOptions): string {
     out += `<circle class="star flagged" data-star="${i}" cx="${r2(m.x(st.x))}" cy="${r2(m.y(st.y))}" r="${r2(minR * 0.8)}" vector-effect="non-scaling-stroke"/>`;
   }
   out += '</g>';
+  // saturated: a solid ring with four ticks pointing out (light spilling over), sized to the star
+  out += `<g class="saturated" fill="none" stroke="${theme.bad}" stroke-width="1.6">`;
+  for (const i of saturated) {
+    const st = report.stars[i];
+    const x = m.x(st.x), y = m.y(st.y);
+    const r = Math.max(1.5 * (Number.isFinite(st.fwhmPx) ? st.fwhmPx : 0), 1.3 * minR);
+    const t = r * 0.6;
+    out += `<circle class="star saturated" data-star="${i}" cx="${r2(x)}" cy="${r2(y)}" r="${r2(r)}" vector-effect="non-scaling-stroke"/>`
+      + `<path d="M${r2(x - r - t)},${r2(y)}h${r2(t)}M${r2(x + r)},${r2(y)}h${r2(t)}M${r2(x)},${r2(y - r - t)}v${r2(t)}M${r2(x)},${r2(y + r)}v${r2(t)}" vector-effect="non-scaling-stroke"/>`;
+  }
+  out += '</g>';
+  out += regionOutline(report, m, theme);
+  if (labels.length) {
+    const size = 11 / s;
+    out += `<g class="catalogue-labels" font-size="${r2(size)}" fill="${theme.fg}" stroke="${theme.bg}" stroke-width="${r2(2.5 / s)}" paint-order="stroke">`;
+    for (const l of labels) {
+      const st = report.stars[l.star];
+      out += `<text class="catalogue-label" data-star="${l.star}" x="${r2(m.x(st.x) + 1.2 * minR)}" y="${r2(m.y(st.y) - 1.2 * minR)}">${esc(l.text)}</text>`;
+    }
+    out += '</g>';
+  }
   if (opts.selected !== undefined && opts.selected !== null && report.stars[opts.selected]) {
     const st = report.stars[opts.selected];
     out += `<circle class="selected" cx="${r2(m.x(st.x))}" cy="${r2(m.y(st.y))}" r="${r2(Math.max(3 * st.fwhmPx, 2 * minR))}" fill="none" stroke="${theme.selected}" stroke-width="2" vector-effect="non-scaling-stroke"/>`;
   }
   out += `<rect x="0" y="0" width="${W}" height="${H}" fill="none" stroke="${theme.frame}" stroke-width="1" vector-effect="non-scaling-stroke"/>`;
   return out + '</g></svg>';
+}
+
+/** The part of the frame that holds sky: nothing for the whole frame, the image disc, or the cells without sky shaded. */
+function regionOutline(report: Report, m: ReturnType<typeof frameMap>, theme: Theme): string {
+  const d = report.frame.dataRegion;
+  if (!d || d.kind === 'full') return '';
+  if (d.kind === 'circle' && d.circle) {
+    const c = d.circle;
+    return `<circle class="data-region" data-kind="circle" cx="${r2(m.x(c.xPx))}" cy="${r2(m.y(c.yPx))}" r="${r2(c.radiusPx * m.s)}" fill="none" stroke="${theme.contour}" stroke-opacity="0.8" stroke-width="1.5" stroke-dasharray="8 5" vector-effect="non-scaling-stroke"/>`;
+  }
+  if (d.kind === 'mask' && d.mask) {
+    const k = d.mask;
+    let path = '';
+    for (let r = 0; r < k.rows; r++) for (let c = 0; c < k.cols; c++) {
+      if (k.cells[r * k.cols + c] !== '0') continue;
+      const x0 = c * k.cellPx, y0 = r * k.cellPx;
+      const x1 = Math.min(report.frame.width, x0 + k.cellPx), y1 = Math.min(report.frame.height, y0 + k.cellPx);
+      // frame pixel edges -0.5 .. +0.5 about the centres; flipY swaps which edge is on top
+      const ya = m.y(y0 - 0.5), yb = m.y(y1 - 0.5);
+      path += `M${r2(m.x(x0 - 0.5))},${r2(Math.min(ya, yb))}H${r2(m.x(x1 - 0.5))}V${r2(Math.max(ya, yb))}H${r2(m.x(x0 - 0.5))}Z`;
+    }
+    return path ? `<path class="data-region" data-kind="mask" d="${path}" fill="${theme.bg}" fill-opacity="0.55" stroke="${theme.contour}" stroke-opacity="0.5" stroke-width="1" vector-effect="non-scaling-stroke"/>` : '';
+  }
+  return '';
 }
