@@ -63,7 +63,8 @@ async function run(ctx: ViewContext): Promise<void> {
   setBusy(true);
   try {
     const o = await ctx.bridge.throughFocus({
-      frames: series.rows.map((r) => ({ name: r.file.name, bytes: r.file.bytes, position: r.position })),
+      // a position from the header goes as null: the engine reads the same card with the full FITS reader and says so
+      frames: series.rows.map((r) => ({ name: r.file.name, bytes: r.file.bytes, position: r.from === 'typed' ? r.position : null })),
       stepUnitUm: series.unit === 'steps' ? series.stepUm : null,
       optics: series.fNumber ? { fNumber: series.fNumber } : undefined,
     });
