@@ -144,7 +144,7 @@ describe.skipIf(!hasReal)('a real frame placed on the sky', () => {
     // signed as the command line prints it; the page writes a true minus sign
     const d = a.distortion!;
     expect(words).toContain(`${d.cornerPercent > 0 ? '+' : ''}${minus(d.cornerPercent.toFixed(2))} ± ${d.cornerPercentErr!.toFixed(2)} % at the corners`);
-    expect(words).toContain(`${a.focalLengthMm!.toFixed(2)}`);
+    expect(words).toMatch(new RegExp(`Focal length measured from the stars: ${a.focalLengthMm!.toFixed(1).replace('.', '\\.')}\\d* ± `));
     expect(words).toMatch(/rectilinear|fisheye/);
     // the factor the words state is the one the figure draws with, and every matched star has its arrow
     const factor = await page.getAttribute('#distortion-factor', 'data-exaggeration');
@@ -275,6 +275,9 @@ describe('the Through focus view', () => {
     expect(await page.locator('.series-stamps svg').count()).toBe(r.stamps.length);
     expect(await page.textContent('#series-frames')).toContain('FOCUSPOS');
     await snap('views-through-focus-day');
+    for (const [sel, name] of [['svg#tf-curves', 'curves'], ['svg#tf-surface', 'surface'], ['.series-stamps', 'stamps']]) {
+      if (await page.locator(sel).count()) { await page.locator(sel).first().scrollIntoViewIfNeeded(); await snap(`views-through-focus-${name}-day`); }
+    }
     await page.click('#series-metric-fwhm');
     await page.waitForSelector('svg#tf-curves');
     expect(await page.textContent('svg#tf-curves')).toContain('FWHM');

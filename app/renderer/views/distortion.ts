@@ -28,6 +28,14 @@ const PATTERN_WORDS: Record<string, string> = {
 /** Signed, as the command line prints it: barrel is negative, pincushion positive. */
 const signed = (v: number, err: number | null, d: number) => `${v > 0 ? '+' : ''}${pm(v, err, d)}`;
 
+/** A value with its error, the error to two significant digits and the value to the same decimals (as the plate-solution table). */
+function withErr(v: number, e: number | null): string {
+  if (e === null || !Number.isFinite(e) || e <= 0) return num(v, 2);
+  const dd = Math.max(0, Math.min(6, 1 - Math.floor(Math.log10(e))));
+  const f = (x: number) => x.toFixed(dd).replace('-', '−');
+  return `${f(v)} ± ${f(Number(e.toPrecision(2)))}`;
+}
+
 /** The distortion in one paragraph (numbers as in the report; the finding says what it means). */
 export function distortionWords(report: Report): string {
   const a = report.astrometry!;
@@ -39,7 +47,7 @@ export function distortionWords(report: Report): string {
     parts.push('No distortion fitted (too few matched stars across the frame).');
   }
   parts.push(a.focalLengthMm !== null
-    ? `Focal length measured from the stars: ${pm(a.focalLengthMm, a.focalLengthErrMm, 2)} mm.`
+    ? `Focal length measured from the stars: ${withErr(a.focalLengthMm, a.focalLengthErrMm)} mm.`
     : 'Focal length: the pixel size is needed to turn the measured sky scale into millimetres.');
   if (a.projection) parts.push(`Projection: ${PROJECTION_WORDS[a.projection] ?? a.projection}.`);
   parts.push(`${a.starsMatched} stars matched to ${a.catalogue.name}.`);
