@@ -17,7 +17,7 @@ function star(x: number, y: number, flags: string[] = [], snr = 50) {
 function report(over: Record<string, unknown> = {}): Report {
   return {
     frame: {
-      width: W, height: H, path: 'made-here.fits', display: { topRow: 'first', note: '' },
+      width: W, height: H, path: 'made-here.fits', display: { topRow: 'first', note: '' }, optics: { plateScaleArcsecPerPx: null },
       dataRegion: { kind: 'full', circle: null, mask: null, skyFraction: 1, blackLevel: null, vignetting: null, note: '' },
     },
     stars: [star(50, 50), star(100, 80), star(200, 150, ['saturated'], 900), star(300, 200, ['saturated', 'blended'], 800), star(20, 290, ['low-snr'], 4)],
@@ -36,8 +36,10 @@ describe('sky marks', () => {
     expect(attr(svg, 'data-flagged-marked')).toBe('1');
     expect((svg.match(/class="star saturated"/g) ?? []).length).toBe(2);
     expect(svg).toContain(`stroke="${DAY.bad}"`);
+    // the key under the frame names the mark, with the count
+    expect(svg).toMatch(/<g class="key-entry" data-mark="saturated">.*?>saturated \(2\)<\/text><\/g>/);
     // night: the saturated marks take the night theme's colour (red only is the theme's rule)
-    expect(skySvg(report(), { theme: NIGHT, width: 800 })).toMatch(new RegExp(`<g class="saturated" fill="none" stroke="${NIGHT.bad}"`));
+    expect(skySvg(report(), { theme: NIGHT, width: 800 })).toMatch(new RegExp(`<g class="saturated-mark" fill="none" stroke="${NIGHT.bad}"`));
   });
 
   it('an image circle is drawn at its centre and radius (frame pixels, centres at +0.5)', () => {
@@ -47,6 +49,7 @@ describe('sky marks', () => {
     (r.frame as { dataRegion: unknown }).dataRegion = { kind: 'circle', circle: { xPx: 201.5, yPx: 148, radiusPx: 170 }, mask: null, skyFraction: 0.7, blackLevel: 10, vignetting: null, note: '' };
     const c = /<circle class="data-region" data-kind="circle" cx="([\d.]+)" cy="([\d.]+)" r="([\d.]+)"/.exec(skySvg(r, { theme: DAY }))!;
     expect(c.slice(1).map(Number)).toEqual([202, 148.5, 170]);
+    expect(skySvg(r, { theme: DAY })).toContain('data-mark="region-circle"');
     // shown with the last stored row on top, the circle's row is mirrored: y' = H - 0.5 - y
     (r.frame as { display: unknown }).display = { topRow: 'last', note: '' };
     const f = /<circle class="data-region" data-kind="circle" cx="([\d.]+)" cy="([\d.]+)"/.exec(skySvg(r, { theme: DAY }))!;
@@ -77,7 +80,9 @@ describe('sky marks', () => {
     const svg = skySvg(r, { theme: DAY, labels: true });
     expect(attr(svg, 'data-labels')).toBe('3');
     expect(svg).toContain('>Bright One (HIP 1)</text>');
+    expect(svg).toContain('data-mark="label"');
     expect(attr(skySvg(r, { theme: DAY }), 'data-labels')).toBe('0');
+    expect(skySvg(r, { theme: DAY })).not.toContain('data-mark="label"');
     expect(labelledMatches(report({ astrometry: { solved: false, matches: [] } }), 10)).toEqual([]);
   });
 });
