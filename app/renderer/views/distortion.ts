@@ -28,12 +28,14 @@ const PATTERN_WORDS: Record<string, string> = {
 /** Signed, as the command line prints it: barrel is negative, pincushion positive. */
 const signed = (v: number, err: number | null, d: number) => `${v > 0 ? '+' : ''}${pm(v, err, d)}`;
 
-/** A value with its error, the error to two significant digits and the value to the same decimals (as the plate-solution table). */
+/**
+ * A value with its error to two significant digits; the value to the error's decimals but no
+ * more than the report keeps (2), so no digits are invented.
+ */
 function withErr(v: number, e: number | null): string {
   if (e === null || !Number.isFinite(e) || e <= 0) return num(v, 2);
-  const dd = Math.max(0, Math.min(6, 1 - Math.floor(Math.log10(e))));
-  const f = (x: number) => x.toFixed(dd).replace('-', '−');
-  return `${f(v)} ± ${f(Number(e.toPrecision(2)))}`;
+  const dd = Math.max(0, Math.min(2, 1 - Math.floor(Math.log10(e))));
+  return `${v.toFixed(dd).replace('-', '−')} ± ${e.toPrecision(2)}`;
 }
 
 /** The distortion in one paragraph (numbers as in the report; the finding says what it means). */
