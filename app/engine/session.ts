@@ -90,8 +90,10 @@ export class EngineSession {
 
   async analyzeDemo(entered?: OpticsInput, onProgress?: (p: Progress) => void): Promise<Outcome<AnalysisResult>> {
     if (!this.opts.demoPath || !this.demoAvailable) return fail('not-found', 'the demo frame is not installed (sample-data/demo-frame.fits)');
+    // the job is numbered before the file is read, so a cancel during the read reaches it
+    const job = this.nextJob++;
     const bytes = await readFile(this.opts.demoPath);
-    return this.analyze({ name: path.basename(this.opts.demoPath), bytes }, entered, onProgress);
+    return this.analyzeNumbered(job, { name: path.basename(this.opts.demoPath), bytes }, entered, onProgress);
   }
 
   /**
@@ -99,7 +101,10 @@ export class EngineSession {
    * (listeners added with onProgress() hear every job).
    */
   analyze(file: { name: string; bytes: Uint8Array }, entered?: OpticsInput, onProgress?: (p: Progress) => void): Promise<Outcome<AnalysisResult>> {
-    const job = this.nextJob++;
+    return this.analyzeNumbered(this.nextJob++, file, entered, onProgress);
+  }
+
+  private analyzeNumbered(job: number, file: { name: string; bytes: Uint8Array }, entered?: OpticsInput, onProgress?: (p: Progress) => void): Promise<Outcome<AnalysisResult>> {
     if (onProgress) {
       const off = this.onProgress((p) => { if (p.job === job) onProgress(p); });
       const p = this.analyzeJob(job, file, entered);

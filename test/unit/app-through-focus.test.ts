@@ -129,6 +129,17 @@ describe('focus series in the engine worker', () => {
     expect(!o.ok && o.message).toMatch(/^bare\.fits: no focuser position typed and none in its header \(FOCUSPOS or FOCPOS\)/);
   }, 120_000);
 
+  it('cancel stops a running series and the next one still runs', async () => {
+    let started!: () => void;
+    const going = new Promise<void>((r) => { started = r; });
+    const p = session.throughFocus(focusSeries(req(positions)), (pr) => { if (pr.stage === 'series' && pr.overall > 0) started(); });
+    await going;
+    session.cancel();
+    expect(await p).toMatchObject({ ok: false, kind: 'cancelled' });
+    const again = value(await session.throughFocus(focusSeries(req([-25, 5, 35, 65]))));
+    expect(again.result.positionsUm).toEqual([-25, 5, 35, 65]);
+  }, 120_000);
+
   it('refuses bad series in the page\'s words: another field, a series that never crosses focus', async () => {
     const o1 = await session.throughFocus(focusSeries({ frames: [
       { name: 'a.fits', bytes: ab(frames.get(-25)!), position: -25 },
