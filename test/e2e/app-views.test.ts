@@ -269,7 +269,10 @@ describe('the Through focus view', () => {
     // simulator truth: 20 µm of tilt across the width (the sign is the core's convention, tested there)
     expect(Math.abs(Math.abs(r.tilt.acrossFrameUm.x) - 20)).toBeLessThan(3 * r.tilt.acrossFrameErrUm.x + 3);
     const messages = await page.$$eval('#series-findings .finding-message', (els: any[]) => els.map((e) => e.textContent));
-    expect(messages.sort()).toEqual(r.findings.map((f: { message: string }) => f.message).sort());
+    // the same findings; the page writes µm and ± (engine texts may still say "um" and "+-")
+    const people = (t: string) => t.replace(/(\d)\s*um\b/g, '$1 µm').replace(/\bum\b/g, 'µm').replace(/\s*\+-\s*/g, ' ± ');
+    expect(messages.sort()).toEqual(r.findings.map((f: { message: string }) => people(f.message)).sort());
+    for (const m of messages) expect(m).not.toMatch(/\bum\b|\+-/);
     expect(await page.locator('svg#tf-curves').count()).toBe(1);
     expect(await page.locator('svg#tf-surface').count()).toBe(r.surface ? 1 : 0);
     expect(await page.locator('.series-stamps svg').count()).toBe(r.stamps.length);
