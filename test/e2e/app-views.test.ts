@@ -153,6 +153,7 @@ describe.skipIf(!hasReal)('a real frame placed on the sky', () => {
     expect(Number(await page.getAttribute('.distortion-figure svg', 'data-arrows'))).toBe(Math.min(600, a.matches.length));
     expect(await page.locator('.distortion-figure .grid-lens path').count()).toBeGreaterThan(10);
     expect(await page.textContent('.astrometry-table')).toContain('Hipparcos');
+    expect(await page.textContent('.distortion-meaning')).not.toMatch(/\+-|\bum\b/);
     await snap('views-distortion-day');
     await night(true);
     expect(await page.getAttribute('.distortion-figure svg', 'data-theme')).toBe('night');
@@ -232,8 +233,11 @@ describe('the Through focus view', () => {
     await page.waitForSelector('#btn-series-add');
     await dropFiles(files([5, 35]));
     await page.waitForSelector('#series-rows tbody tr[data-row="1"]');
-    // two frames: the button waits for a third
-    expect(await page.isDisabled('#btn-series-run')).toBe(true);
+    // two frames: the page says to use the focus pair (or add a third)
+    await page.click('#btn-series-run');
+    await page.waitForSelector('#series-error');
+    expect(await page.textContent('#series-error')).toMatch(/two frames cannot show a focus curve: for two frames a known step apart use the focus pair/);
+    await snap('views-through-focus-two-frames');
     await page.click('#btn-series-clear');
     await dropFiles(files([-25, 5, 35]));
     await page.waitForSelector('#series-rows tbody tr[data-row="2"]');

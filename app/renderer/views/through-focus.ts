@@ -166,7 +166,8 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   const input = h('input', { type: 'file', accept: ACCEPT, id: 'series-input', multiple: true, hidden: true, 'aria-label': 'Frames of the focus series' });
   const add = button('btn-series-add', 'Add frames…', 'Add frames of one field taken at different focuser positions (or drop them here)');
   const go = button('btn-series-run', 'Find best focus', 'Analyse the series: focus curves, focus surface, tilt, curvature, spherical aberration', {
-    disabled: series.rows.length < 3 || ctx.state.busy,
+    // with too few frames the engine says what to do (two frames: the focus pair)
+    disabled: series.rows.length === 0 || ctx.state.busy,
   });
   const clear = button('btn-series-clear', 'Clear', 'Remove all frames of the series', { disabled: series.rows.length === 0 });
   add.addEventListener('click', () => input.click());
