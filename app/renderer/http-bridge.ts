@@ -4,7 +4,7 @@
  */
 import type {
   AnalysisResult, AppConfig, CompareResult, ExportKind, FocusSeriesRequest, FocusSeriesResult, FrameFile, MenuCommand, OpticsInput, Outcome, Progress,
-  SavedFile, SkyloupeBridge, StampData, SweepResult,
+  SavedFile, SkyloupeBridge, StampData, SweepResult, FocusPairResult,
 } from '../preload/bridge.ts';
 
 const TOKEN_HEADER = 'X-Skyloupe-Token';
@@ -102,6 +102,8 @@ export function httpBridge(token: string): SkyloupeBridge {
       return streamed<FocusSeriesResult>('/api/through-focus', new Blob([len, head, ...req.frames.map((f) => f.bytes)]));
     },
     sweep: (points) => outcome<SweepResult>('/api/sweep', { method: 'POST', body: JSON.stringify({ points }), headers: { 'Content-Type': 'application/json' } }),
+    forgetOptics: (camera) => outcome<null>('/api/forget-optics', { method: 'POST', body: JSON.stringify({ camera }), headers: { 'Content-Type': 'application/json' } }),
+    focusPair: (a, b, stepUm) => outcome<FocusPairResult>('/api/focus-pair', { method: 'POST', body: JSON.stringify({ a, b, stepUm }), headers: { 'Content-Type': 'application/json' } }),
     async exportReport(id: string, kind: ExportKind): Promise<Outcome<SavedFile>> {
       try {
         const res = await fetch(`/api/export?id=${encodeURIComponent(id)}&kind=${kind}`, { headers });

@@ -137,7 +137,7 @@ describe.skipIf(!hasReal)('a real frame placed on the sky', () => {
     const a = report.astrometry!;
     expect(a.solved).toBe(true);
     await page.focus('#view');
-    await page.keyboard.press('9');
+    await page.keyboard.press('g');
     await page.waitForSelector('#distortion-status[data-solved="true"]');
     const words = (await page.textContent('#distortion-status')) ?? '';
     expect(await page.getAttribute('#distortion-status', 'data-pattern')).toBe(a.distortion!.pattern);
@@ -198,7 +198,7 @@ describe('frames the engine cannot place, and an image circle', () => {
     const report = await openFrame('random-dots.fits', bytes);
     expect(report.astrometry?.solved).toBe(false);
     await page.focus('#view');
-    await page.keyboard.press('9');
+    await page.keyboard.press('g');
     await page.waitForSelector('#distortion-status[data-solved="false"]');
     expect(await page.textContent('#distortion-status')).toBe(`Not placed on the sky: ${report.astrometry!.reason}.`);
     expect(await page.locator('.distortion-figure').count()).toBe(0);

@@ -90,4 +90,4 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   box.append(h('h2', {}, 'Where the frame is on the sky'), table);
 }
 
-export const distortionView: View = { name: 'distortion', label: 'Distortion', key: '9', render };
+export const distortionView: View = { name: 'distortion', label: 'Distortion', key: 'g', render };
