@@ -23,6 +23,7 @@ import type { Report } from '../../core/report/types.ts';
 import { launch, shot, startServe, SHOTS, type Served } from './browser.ts';
 import { frameScene, type SeriesScene } from '../reference/recovery-focus-series.ts';
 import { mulberry32, normal } from '../helpers/rng.ts';
+import { pageMessage } from '../../app/renderer/finding-words.ts';
 
 declare const document: any;
 declare const DataTransfer: any;
@@ -273,8 +274,8 @@ describe('the Through focus view', () => {
     // simulator truth: 20 µm of tilt across the width (the sign is the core's convention, tested there)
     expect(Math.abs(Math.abs(r.tilt.acrossFrameUm.x) - 20)).toBeLessThan(3 * r.tilt.acrossFrameErrUm.x + 3);
     const messages = await page.$$eval('#series-findings .finding-message', (els: any[]) => els.map((e) => e.textContent));
-    // the same findings; the page writes µm and ± (engine texts may still say "um" and "+-")
-    const people = (t: string) => t.replace(/(\d)\s*um\b/g, '$1 µm').replace(/\bum\b/g, 'µm').replace(/\s*\+-\s*/g, ' ± ');
+    // the same findings, as the page says them (renderer/finding-words.ts: µm, ±, the page's controls)
+    const people = pageMessage;
     expect(messages.sort()).toEqual(r.findings.map((f: { message: string }) => people(f.message)).sort());
     for (const m of messages) expect(m).not.toMatch(/\bum\b|\+-/);
     expect(await page.locator('svg#tf-curves').count()).toBe(1);

@@ -8,7 +8,7 @@
 import { astrometryTableHtml, distortionFigureData, distortionSvg, num, pm } from '../../../core/report/svg/index.ts';
 import type { Report } from '../../../core/report/types.ts';
 import { h, setMarkup } from '../dom.ts';
-import { peopleUnits } from '../units.ts';
+import { pageMessage } from '../finding-words.ts';
 import { figureWidth, fitFigure, needFrame } from '../widgets.ts';
 import type { View, ViewContext } from '../context.ts';
 
@@ -84,7 +84,7 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   fitFigure(holder);
   box.append(holder);
   const meaning = (report.findings ?? []).find((f) => f.code === 'DISTORTION');
-  if (meaning) box.append(h('p', { class: 'distortion-meaning' }, peopleUnits(meaning.message)));
+  if (meaning) box.append(h('p', { class: 'distortion-meaning' }, pageMessage(meaning.message)));
   const table = h('div', { class: 'astrometry-table' });
   setMarkup(table, astrometryTableHtml(report));
   box.append(h('h2', {}, 'Where the frame is on the sky'), table);

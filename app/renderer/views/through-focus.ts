@@ -14,7 +14,7 @@ import { SEVERITY_WORDS } from '../../../core/series/words.ts';
 import type { FocusSeriesResult, FrameFile } from '../../preload/bridge.ts';
 import { h, setMarkup } from '../dom.ts';
 import { setBusy } from '../messages.ts';
-import { peopleUnits } from '../units.ts';
+import { pageMessage } from '../finding-words.ts';
 import { ACCEPT, button, figureWidth, fileFrom, fitFigure, radios, toolbar } from '../widgets.ts';
 import type { View, ViewContext } from '../context.ts';
 
@@ -121,7 +121,7 @@ function results(el: HTMLElement, ctx: ViewContext, out: FocusSeriesResult): voi
   const list = h('ol', { class: 'findings', id: 'series-findings' });
   for (const f of [...r.findings].sort((a, b) => order[a.severity] - order[b.severity])) {
     list.append(h('li', { class: `finding severity-${f.severity}`, 'data-severity': f.severity },
-      h('span', { class: 'severity' }, SEVERITY_WORDS[f.severity]), ' ', h('span', { class: 'finding-message' }, peopleUnits(f.message))));
+      h('span', { class: 'severity' }, SEVERITY_WORDS[f.severity]), ' ', h('span', { class: 'finding-message' }, pageMessage(f.message))));
   }
   el.append(h('h2', {}, 'Findings'), list);
   el.append(h('h2', {}, 'Focus curves'), toolbar(radios('series-metric', [['hfd', 'HFD'], ['fwhm', 'FWHM'], ['rms', 'rms radius']], series.metric, (v) => {
