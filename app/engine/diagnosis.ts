@@ -1,10 +1,15 @@
-/** Field map, diagnosis and findings for the report (core/diagnose). */
+/**
+ * Field map, diagnosis and findings for the report (core/diagnose), with the plate solution's
+ * findings (distortion, focal length) as the command line's report has them
+ * (core/report/from-analysis.ts).
+ */
 import type { Analysis } from '../../core/analyze.ts';
 import type { Report } from '../../core/report/types.ts';
 import { diagnose } from '../../core/diagnose/index.ts';
 import { contextOf } from '../../core/diagnose/context.ts';
+import { skyFindings } from '../../core/sky/finding.ts';
 
 export function diagnoseExtras(a: Analysis): Pick<Report, 'diagnosis' | 'findings' | 'field'> {
   const d = diagnose(a.stars, contextOf(a));
-  return { field: d.field, diagnosis: d.diagnosis, findings: d.findings };
+  return { field: d.field, diagnosis: d.diagnosis, findings: [...d.findings, ...skyFindings(a.astrometry)] };
 }

@@ -55,7 +55,8 @@ export async function addFrames(files: FrameFile[], ctx: ViewContext): Promise<v
 }
 
 async function run(ctx: ViewContext): Promise<void> {
-  if (series.unit === 'steps' && !(series.stepUm && series.stepUm > 0)) {
+  // too few frames: the engine's answer comes first (two frames: the focus pair)
+  if (series.rows.length >= 3 && series.unit === 'steps' && !(series.stepUm && series.stepUm > 0)) {
     series.error = 'Give the size of one focuser step in µm (the positions are counted in steps).';
     ctx.rerender();
     return;
