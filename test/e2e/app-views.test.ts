@@ -239,6 +239,9 @@ describe('the Through focus view', () => {
     await page.waitForSelector('#series-error');
     expect(await page.textContent('#series-error')).toMatch(/two frames cannot show a focus curve: for two frames a known step apart use the focus pair/);
     await snap('views-through-focus-two-frames');
+    await page.click('#btn-series-focuspair');
+    expect(await page.getAttribute('#tab-focuspair', 'aria-selected')).toBe('true');
+    await page.click('#tab-through-focus');
     await page.click('#btn-series-clear');
     await dropFiles(files([-25, 5, 35]));
     await page.waitForSelector('#series-rows tbody tr[data-row="2"]');

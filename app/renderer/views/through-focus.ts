@@ -192,7 +192,16 @@ function render(el: HTMLElement, ctx: ViewContext): void {
     h('label', { title: 'For the critical focus zone, when the frames do not say' }, 'f/', fnum)));
   if (series.rows.length) el.append(frameTable(ctx));
   else el.append(h('p', { class: 'muted' }, 'No frames yet: add or drop them. A FITS header\'s FOCUSPOS or FOCPOS fills the position in; otherwise type it.'));
-  if (series.error) el.append(h('p', { id: 'series-error', class: 'series-error message-error', role: 'alert' }, series.error));
+  if (series.error) {
+    const err = h('p', { id: 'series-error', class: 'series-error message-error', role: 'alert' }, series.error);
+    // two frames a known step apart: the page's own control for them
+    if (/focus pair/.test(series.error)) {
+      const open = button('btn-series-focuspair', 'Open Focus pair', 'Two frames a known focus step apart: the signed tilt');
+      open.addEventListener('click', () => ctx.switchView('focuspair'));
+      err.append(' ', open);
+    }
+    el.append(err);
+  }
   if (series.result) results(el, ctx, series.result);
 }
 
