@@ -20,8 +20,8 @@ describe.skipIf(!existsSync(REAL))('findings on the page and on the command line
     expect(a.astrometry?.solved).toBe(true);
     const cli = reportFromAnalysis(a, REAL);
     const page = buildReport(a, REAL, diagnoseExtras(a));
-    expect(page.findings.map((f) => f.code)).toEqual(cli.findings.map((f) => f.code));
-    expect(page.findings.map((f) => f.message)).toEqual(cli.findings.map((f) => f.message));
-    expect(page.findings.some((f) => f.code === 'DISTORTION')).toBe(true);
+    expect((page.findings ?? []).map((f) => f.code)).toEqual((cli.findings ?? []).map((f) => f.code));
+    expect((page.findings ?? []).map((f) => f.message)).toEqual((cli.findings ?? []).map((f) => f.message));
+    expect((page.findings ?? []).some((f) => f.code === 'DISTORTION')).toBe(true);
   }, 120_000);
 });
