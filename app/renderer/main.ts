@@ -27,6 +27,55 @@ declare global {
 
 // ---------- page skeleton ----------
 
+/** What each view shows (by registry name; a view missing here shows its label only). */
+const VIEW_HELP: Record<string, string> = {
+  sky: 'the frame with every measured star marked; click a star for its numbers and pixels. The key under it names the marks; the bar gives the scale.',
+  shape: 'how stretched the stars are across the field: a line along each zone\'s (or star\'s) long axis, longer for more stretch.',
+  size: 'a smooth map of star size (FWHM) or ellipticity over the frame, with contour lines and a colour key.',
+  focus: 'the focus error at the corners and the sensor tilt fitted from the star sizes.',
+  corners: 'close-ups of the corners beside the centre, at one zoom.',
+  findings: 'what the diagnosis found, most important first, with buttons for what to do next.',
+  compare: 'two frames zone by zone on the same scale (two lenses, two settings).',
+  sweep: 'frames at several spacer distances: the spacing where the corner stars come out best.',
+  focuspair: 'two frames a known focus step apart: which side of the sensor is too close to the lens.',
+  distortion: 'where the frame is on the sky and what the lens does to geometry: a square grid as the lens draws it and the measured shift of each catalogue star, both drawn enlarged by a stated factor.',
+  'through-focus': 'three or more frames at different focuser positions: focus curves per zone, the best-focus surface (tilt, curvature), spherical aberration, and one star\'s discs across the series.',
+};
+
+const TERMS: [string, string][] = [
+  ['FWHM', 'full width at half maximum: the diameter of a star where its light falls to half the peak, in pixels or arcseconds. Smaller is sharper.'],
+  ['HFD', 'half-flux diameter: the diameter holding half of a star\'s light. Steadier than FWHM for out-of-focus stars.'],
+  ['Ellipticity', '1 − b/a for a star with long axis a and short axis b: 0 is round, larger is more stretched.'],
+  ['a/b', 'elongation, long axis over short axis (1 = round).'],
+  ['Tilt', 'the sensor not square to the optical axis: one side sharper than the other. In µm of focus change across the frame, or in mrad.'],
+  ['Field curvature', 'the sharp image lies on a curved surface: the centre and the corners focus at different places.'],
+  ['Astigmatism, spacing', 'stars stretched along or across the radius in the corners; with a flattener or reducer often a wrong distance to the sensor.'],
+  ['Coma', 'stars with a flare pointing toward or away from the centre.'],
+  ['σ (significance)', 'how many standard errors a measured effect stands above noise; 3 σ and more is taken as real.'],
+  ['Zone', 'one cell of the grid the frame is divided into; zone values are robust means of the stars inside.'],
+  ['Distortion', 'the lens moves stars from where a distortion-free lens would put them, without blurring them: barrel (squeezed toward the corners), pincushion (stretched), mustache (both). In % at the corners.'],
+  ['Saturated', 'a star whose brightest pixels reached the camera\'s ceiling: its core is clipped, so its size and shape are not measured.'],
+  ['Critical focus zone', 'the range of focuser travel over which a star looks equally sharp, ±2.44 λ N² (common practice).'],
+];
+
+function helpDialog(): HTMLDialogElement {
+  const keys: [string, string][] = [
+    [VIEWS.map((v) => v.key.toUpperCase()).join(' '), 'switch view'], ['O', 'open a frame'], ['D', 'demo frame'], ['F', 'optics in use'], ['N', 'night mode'],
+    ['E', 'save the HTML report'], ['P', 'save the view as PNG'], ['+  −  0', 'zoom in, out, reset (Sky)'], ['arrows', 'pan (Sky)'],
+    ['[  ]', 'previous / next star (Sky)'], ['L', 'catalogue names on or off (Sky)'], ['Esc', 'stop the analysis, close this'], ['?', 'this help'],
+  ];
+  const dl = (rows: [string, string][]) => h('dl', {}, ...rows.flatMap(([k, v]) => [h('dt', {}, k), h('dd', {}, v)]));
+  return h('dialog', { id: 'help-dialog', 'aria-label': 'Help' },
+    h('h2', {}, 'Help'),
+    h('h3', {}, 'Views'),
+    dl(VIEWS.map((v) => [`${v.key}  ${v.label}`, VIEW_HELP[v.name] ?? ''])),
+    h('h3', {}, 'Terms'),
+    dl(TERMS),
+    h('h3', {}, 'Keys'),
+    h('table', {}, h('tbody', {}, ...keys.map(([k, v]) => h('tr', {}, h('th', { scope: 'row' }, k), h('td', {}, v))))),
+    h('form', { method: 'dialog' }, h('button', { type: 'submit', id: 'btn-help-close' }, 'Close')));
+}
+
 function buildPage(): void {
   const tabs = VIEWS.map((v) => h('button', {
     id: `tab-${v.name}`, type: 'button', role: 'tab', 'data-view': v.name, 'aria-controls': 'view', 'aria-selected': v.name === state.view ? 'true' : 'false',
@@ -47,7 +96,7 @@ function buildPage(): void {
         button('btn-export-png', 'PNG', 'Save this view as a PNG picture (P)', { disabled: true })),
       button('btn-optics-panel', 'Optics', 'Optics in use and where they came from (F)', { 'aria-expanded': 'false', 'aria-controls': 'optics-form', disabled: true }),
       button('btn-night', 'Night', 'Red night mode for the telescope (N)', { 'aria-pressed': 'false' }),
-      button('btn-help', 'Keys', 'Keyboard keys (?)')),
+      button('btn-help', 'Help', 'Views, terms and keys (?)')),
     h('div', { id: 'progress', class: 'progress', hidden: true, role: 'status', 'aria-live': 'polite' },
       h('span', { id: 'progress-label' }, ''),
       h('progress', { id: 'progress-bar', max: '1', value: '0' }),
@@ -70,14 +119,7 @@ function buildPage(): void {
         h('section', { id: 'summary', class: 'summary-panel', 'aria-label': 'Summary' }),
         h('section', { id: 'star-panel', class: 'star-panel', 'aria-label': 'Selected star' }))),
     h('div', { id: 'drop-overlay', class: 'drop-overlay', hidden: true }, h('div', {}, 'Drop a frame to analyse it')),
-    h('dialog', { id: 'help-dialog', 'aria-label': 'Keyboard keys' },
-      h('h2', {}, 'Keys'),
-      h('table', {}, h('tbody', {}, ...[
-        ['1 – 9, G, T', 'switch view'], ['O', 'open a frame'], ['D', 'demo frame'], ['N', 'night mode'], ['E', 'save the HTML report'],
-        ['P', 'save the view as PNG'], ['+  −  0', 'zoom in, out, reset (Sky)'], ['arrows', 'pan (Sky)'], ['[  ]', 'previous / next star (Sky)'], ['L', 'catalogue names on or off (Sky)'],
-        ['Esc', 'stop the analysis, close this'], ['?', 'this list'],
-      ].map(([k, v]) => h('tr', {}, h('th', { scope: 'row' }, k), h('td', {}, v))))),
-      h('form', { method: 'dialog' }, h('button', { type: 'submit', id: 'btn-help-close' }, 'Close'))),
+    helpDialog(),
   );
   document.body.append(app);
 }

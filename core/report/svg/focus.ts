@@ -6,7 +6,7 @@ import { scaleLinear } from 'd3-scale';
 import type { Report } from '../types.ts';
 import type { TiltDiagnosis } from '../../diagnose/types.ts';
 import type { Theme } from './theme.ts';
-import { diagnosisOf, emptyFigure, frameMap, num, pm, r2, svgOpen, text } from './util.ts';
+import { diagnosisOf, emptyFigure, frameMap, num, pm, r2, svgOpen, text, wrapWords } from './util.ts';
 
 export interface FocusOptions { theme: Theme; width?: number }
 
@@ -128,7 +128,11 @@ export function focusSvg(report: Report, opts: FocusOptions): string {
   // numbers beside the plane
   const nx = X1 + 24;
   let ny = top0 + 10;
-  const line = (s: string, fill = theme.fg, size = 12) => { out += text(nx, ny, s, theme, { size, fill }); ny += size + 6; };
+  // side text wraps to the room right of the plane (about 0.6 em per character)
+  const sideChars = (size: number) => Math.max(12, Math.floor((width - nx - 8) / (0.6 * size)));
+  const line = (s: string, fill = theme.fg, size = 12) => {
+    for (const l of wrapWords(s, sideChars(size))) { out += text(nx, ny, l, theme, { size, fill, cls: 'focus-note' }); ny += size + 6; }
+  };
   line(t.significant ? 'Tilt: significant' : 'Tilt: not significant', t.significant ? theme.bad : theme.good, 13);
   if (t.tiltMrad !== null) line(`${pm(t.tiltMrad, t.tiltErrMrad, 2)} mrad`);
   line(`across width ${pm(across.x, acrossErr.x, 1)} ${unit}`);
@@ -136,14 +140,17 @@ export function focusSvg(report: Report, opts: FocusOptions): string {
   line(`significance ${num(t.significance, 1)} σ`, theme.muted, 11);
   line(`${t.starsUsed} stars`, theme.muted, 11);
   if (!t.signResolved) {
-    line('One frame gives sizes only:', theme.muted, 11);
-    line('which side is nearer is open.', theme.muted, 11);
+    line('One frame gives sizes only: which side is nearer is open.', theme.muted, 11);
   }
   if (grad) {
     ny += 6;
-    line(`plane: ${num(planeLo, 1)} to ${num(planeHi, 1)} ${unit}`, theme.muted, 11);
-    line('relative to the centre', theme.muted, 11);
+    line(`plane: ${num(planeLo, 1)} to ${num(planeHi, 1)} ${unit} relative to the centre`, theme.muted, 11);
   }
-  if (t.note) out += text(10, height - 12, t.note, theme, { size: 11, fill: theme.muted });
+  // the note wraps under the plane; the figure grows to hold it (and the side text, if longer)
+  const noteLines = t.note ? wrapWords(t.note, Math.max(30, Math.floor((width - 20) / 6.6))) : [];
+  const fullH = Math.max(height, ny + 8) + Math.max(0, noteLines.length - 1) * 15;
+  noteLines.forEach((l, i) => { out += text(10, fullH - 12 - (noteLines.length - 1 - i) * 15, l, theme, { size: 11, fill: theme.muted, cls: 'focus-note' }); });
+  if (fullH !== height) out = out.replace(/^(<svg[^>]*?)viewBox="0 0 ([\d.]+) [\d.]+" width="([\d.]+)" height="[\d.]+"/, (_m, a, w, dw) => `${a}viewBox="0 0 ${w} ${r2(fullH)}" width="${dw}" height="${r2(fullH)}"`)
+    .replace(/(<title>[^<]*<\/title><rect x="0" y="0" width="[\d.]+" height=")[\d.]+"/, `$1${r2(fullH)}"`);
   return out + '</svg>';
 }

@@ -3,11 +3,13 @@ import type { Report } from '../types.ts';
 import { esc, num, svgOpen, text } from './util.ts';
 import type { Theme } from './theme.ts';
 import { saturationText } from '../../frame/saturation.ts';
+import { NUMBER_WORDS } from '../number-words.ts';
 
 const SEVERITY_LABEL: Record<string, string> = { major: 'Act on this', minor: 'Worth a look', info: 'Note' };
 
 /** Words for a number key such as "cornerDefocusUm" -> "corner defocus (µm)". */
 export function numberLabel(key: string): string {
+  if (NUMBER_WORDS[key]) return NUMBER_WORDS[key];
   const units: [RegExp, string][] = [[/Um$/, ' (µm)'], [/Mm$/, ' (mm)'], [/Px2$/, ' (px²)'], [/Px$/, ' (px)'], [/Deg$/, ' (°)'], [/Mrad$/, ' (mrad)'], [/Arcsec$/, ' (arcsec)']];
   let unit = '';
   let base = key;

@@ -4,7 +4,8 @@
  */
 import type { Report } from '../types.ts';
 import type { Theme } from './theme.ts';
-import { elongationFromDistortion, elongationFromEllipticity, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, type FrameMap } from './util.ts';
+import { elongationFromDistortion, elongationFromEllipticity, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, wrapWords, type FrameMap } from './util.ts';
+import { scaleBar } from './scale-bar.ts';
 
 export interface ShapeOptions {
   theme: Theme;
@@ -57,7 +58,8 @@ export function shapeSvg(report: Report, opts: ShapeOptions): string {
   const top = TITLE_H;
   const { m, plotW, plotH } = frameBesideKey(report, width, keyW);
   const s = m.s;
-  const height = Math.max(plotH + top + 12, 260);
+  // room under the plot for the pixel scale bar
+  const height = Math.max(plotH + top + 36, 260);
   const vectors = shapeVectors(report, mode, opts.maxStars);
   const label = `Shape map (${mode === 'zones' ? 'per zone' : 'per star'})`;
   if (vectors.length === 0) {
@@ -93,6 +95,7 @@ export function shapeSvg(report: Report, opts: ShapeOptions): string {
     const cy = m.y(field.centre.y);
     out += `<g class="optical-centre" stroke="${theme.bad}" stroke-width="1.5"><line x1="${r2(cx - 7)}" y1="${r2(cy)}" x2="${r2(cx + 7)}" y2="${r2(cy)}"/><line x1="${r2(cx)}" y1="${r2(cy - 7)}" x2="${r2(cx)}" y2="${r2(cy + 7)}"/></g>`;
   }
+  out += scaleBar(m.ox + 4, top + plotH + 24, { unitsPerPx: s, maxUnits: plotW * 0.3, plateScale: report.frame.optics.plateScaleArcsecPerPx, u: 1 }, theme);
   // scale key
   const kx = width - keyW + 4;
   let ky = top + 10;
@@ -119,7 +122,11 @@ export function shapeSvg(report: Report, opts: ShapeOptions): string {
   if (field) {
     ky += 16;
     out += `<line x1="${r2(kx)}" y1="${r2(ky - 4)}" x2="${r2(kx + 10)}" y2="${r2(ky - 4)}" stroke="${theme.bad}" stroke-width="1.5"/>`;
-    out += text(kx + 14, ky, field.centre.source === 'frame-centre' ? 'frame centre (assumed optical centre)' : `optical centre (from ${field.centre.source})`, theme, { size: 10, fill: theme.muted });
+    // wrapped to the key's width, so long words are never cut at the figure's edge
+    for (const l of wrapWords(field.centre.source === 'frame-centre' ? 'frame centre (assumed optical centre)' : `optical centre (from ${field.centre.source})`, Math.floor((keyW - 22) / 5.6))) {
+      out += text(kx + 14, ky, l, theme, { size: 10, fill: theme.muted, cls: 'key-note' });
+      ky += 13;
+    }
   }
   return out + '</svg>';
 }

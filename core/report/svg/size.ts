@@ -9,6 +9,7 @@ import { evalSurface } from '../../field/surface.ts';
 import type { Surface } from '../../field/types.ts';
 import type { Theme } from './theme.ts';
 import { colorKey, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, type FrameMap } from './util.ts';
+import { scaleBar } from './scale-bar.ts';
 
 export type SizeQuantity = 'fwhmPx' | 'fwhmArcsec' | 'ellipticity';
 
@@ -138,7 +139,8 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   const { m, plotW, plotH } = frameBesideKey(report, width, keyW);
   // room for the colour key and its two note lines beside short plots
   const keyH = Math.max(80, Math.min(plotH - 40, 260));
-  const height = Math.max(plotH + top + 12, top + 24 + keyH + 56);
+  // room under the plot for the pixel scale bar
+  const height = Math.max(plotH + top + 36, top + 24 + keyH + 56);
   const label = opts.title ?? `Size map: ${QUANTITY_LABEL[quantity]}`;
   const why = heatUnavailable(report, quantity);
   const g = why ? null : heatGrid(report, quantity);
@@ -197,6 +199,7 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   }
   out += '</g>' + labels;
   out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
+  out += scaleBar(m.ox + 4, top + plotH + 24, { unitsPerPx: m.s, maxUnits: plotW * 0.3, plateScale: report.frame.optics.plateScaleArcsecPerPx, u: 1 }, theme);
   out += colorKey(width - keyW + 10, top + 24, keyH, lo, hi, QUANTITY_LABEL[quantity], theme, `${id}-key`);
   const ky = top + keyH + 46;
   out += text(width - keyW + 10, ky, g.source === 'surface' ? 'smooth fit' : 'zone medians', theme, { size: 10, fill: theme.muted });

@@ -98,6 +98,17 @@ export function text(x: number, y: number, s: string, theme: Theme, opts: { size
   return `<text x="${r2(x)}" y="${r2(y)}" font-size="${opts.size ?? 12}" fill="${opts.fill ?? theme.fg}" text-anchor="${opts.anchor ?? 'start'}"${opts.weight ? ` font-weight="${opts.weight}"` : ''}${opts.cls ? ` class="${opts.cls}"` : ''}>${esc(s)}</text>`;
 }
 
+/** Words wrapped into lines of at most `chars` characters (a longer word gets its own line). */
+export function wrapWords(s: string, chars: number): string[] {
+  const out: string[] = [];
+  let cur = '';
+  for (const w of s.split(/\s+/).filter(Boolean)) {
+    if (cur && (cur + ' ' + w).length > chars) { out.push(cur); cur = w; } else cur = cur ? `${cur} ${w}` : w;
+  }
+  if (cur) out.push(cur);
+  return out;
+}
+
 /** A message in place of a figure the data cannot support. */
 export function emptyFigure(w: number, h: number, label: string, message: string, theme: Theme): string {
   return svgOpen(w, h, label, theme) + text(w / 2, h / 2, message, theme, { anchor: 'middle', fill: theme.muted, size: 14, cls: 'figure-note' }) + '</svg>';

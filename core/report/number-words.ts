@@ -1,0 +1,38 @@
+/**
+ * Words for the numbers behind findings (Finding.numbers keys), for people: the page and the
+ * HTML report show these, the JSON keeps the keys. A key missing here is split into words.
+ */
+export const NUMBER_WORDS: Record<string, string> = {
+  cornerERadial: 'corner elongation along the radius',
+  radMinusTanPx2: 'radial minus tangential moment (px²)',
+  radMinusTanErrPx2: 'radial minus tangential moment, error (px²)',
+  cornerToCentreSize: 'corner size ÷ centre size',
+  cornerToCentreFwhm: 'corner FWHM ÷ centre FWHM',
+  worthwhileTo: 'worth stopping down to f/',
+  nextFNumber: 'next f-number',
+  nextCornerFwhmPx: 'corner FWHM at the next f-number (px)',
+  nextCentreFwhmPx: 'centre FWHM at the next f-number (px)',
+  relativeErr: 'relative error',
+  fNumber: 'f-number',
+  stepMm: 'spacer step to try (mm)',
+  significance: 'significance (σ)',
+  signSignificance: 'sign settled at (σ)',
+  acrossWidthErrUm: 'across width, error (µm)',
+  acrossHeightErrUm: 'across height, error (µm)',
+  axisErrDeg: 'axis, error (°)',
+  angleErrDeg: 'angle, error (°)',
+  rotationErrDeg: 'rotation, error (°)',
+  cornerDefocusErrUm: 'corner defocus, error (µm)',
+  lengthErrPx: 'length, error (px)',
+  gradientErrPx: 'gradient, error (px)',
+  centerErrX: 'centre x, error (px)',
+  centerErrY: 'centre y, error (px)',
+  centerX: 'centre x (px)',
+  centerY: 'centre y (px)',
+  centreOffsetFraction: 'centre offset (fraction of the half-diagonal)',
+  cornerComaRatio: 'corner coma ÷ star size',
+  roundGrowthRatio: 'round growth, corners ÷ centre',
+  x: 'x (px)',
+  y: 'y (px)',
+  err: 'error (px)',
+};
