@@ -1,4 +1,8 @@
-/** Field map, diagnosis and findings for the report (core/diagnose), with the sky's (as the CLI's report). */
+/**
+ * Field map, diagnosis and findings for the report (core/diagnose), with the plate solution's
+ * findings (distortion, focal length) as the command line's report has them
+ * (core/report/from-analysis.ts).
+ */
 import type { Analysis } from '../../core/analyze.ts';
 import type { Report } from '../../core/report/types.ts';
 import { diagnose } from '../../core/diagnose/index.ts';

@@ -12,8 +12,10 @@ import { SkyloupeError } from '../../core/errors.ts';
 import { starsCsv } from '../../core/report/csv.ts';
 import { reportHtml } from '../../core/report/html.ts';
 import type {
-  AnalysisResult, CompareResult, ExportKind, FailureKind, OpticsInput, Outcome, Progress, StampData, SweepResult,
+  AnalysisResult, CompareResult, ExportKind, FailureKind, FocusSeriesResult, OpticsInput, Outcome, Progress, StampData, SweepResult,
 } from '../preload/bridge.ts';
+import type { FocusSeriesOutput } from './focus-series.ts';
+import type { FocusSeriesJob } from './validate.ts';
 import type { FromWorker, ToWorker } from './protocol.ts';
 import type { PipelineOutput } from './pipeline.ts';
 import type { CameraMemory } from './memory.ts';
@@ -39,14 +41,18 @@ export interface ExportFile { filename: string; mime: string; body: string }
 const STAGES: Record<string, [number, number]> = {
   read: [0, 0.05], background: [0.05, 0.1], detect: [0.15, 0.1], measure: [0.25, 0.55],
   field: [0.8, 0.1], images: [0.9, 0.09], done: [1, 0],
+  // a focus series reports its own overall fraction (frames analysed so far)
+  series: [0, 1],
 };
 
 /** A cancelled job that has not stopped by itself within this time has its worker ended. */
 const HARD_CANCEL_MS = 400;
 
+type Answer = Extract<FromWorker, { type: 'result' | 'series-result' }>;
+
 interface Job {
   job: number;
-  resolve: (o: PipelineOutput) => void;
+  resolve: (o: Answer) => void;
   reject: (e: unknown) => void;
   timer?: ReturnType<typeof setTimeout>;
 }
@@ -85,8 +91,10 @@ export class EngineSession {
 
   async analyzeDemo(entered?: OpticsInput, onProgress?: (p: Progress) => void): Promise<Outcome<AnalysisResult>> {
     if (!this.opts.demoPath || !this.demoAvailable) return fail('not-found', 'the demo frame is not installed (sample-data/demo-frame.fits)');
+    // the job is numbered before the file is read, so a cancel during the read reaches it
+    const job = this.nextJob++;
     const bytes = await readFile(this.opts.demoPath);
-    return this.analyze({ name: path.basename(this.opts.demoPath), bytes }, entered, onProgress);
+    return this.analyzeNumbered(job, { name: path.basename(this.opts.demoPath), bytes }, entered, onProgress);
   }
 
   /**
@@ -94,7 +102,10 @@ export class EngineSession {
    * (listeners added with onProgress() hear every job).
    */
   analyze(file: { name: string; bytes: Uint8Array }, entered?: OpticsInput, onProgress?: (p: Progress) => void): Promise<Outcome<AnalysisResult>> {
-    const job = this.nextJob++;
+    return this.analyzeNumbered(this.nextJob++, file, entered, onProgress);
+  }
+
+  private analyzeNumbered(job: number, file: { name: string; bytes: Uint8Array }, entered?: OpticsInput, onProgress?: (p: Progress) => void): Promise<Outcome<AnalysisResult>> {
     if (onProgress) {
       const off = this.onProgress((p) => { if (p.job === job) onProgress(p); });
       const p = this.analyzeJob(job, file, entered);
@@ -104,12 +115,59 @@ export class EngineSession {
     return this.analyzeJob(job, file, entered);
   }
 
+  /** Jobs run one at a time, in the order asked. */
+  private enqueue<T>(run: () => Promise<Outcome<T>>): Promise<Outcome<T>> {
+    const p = this.queue.then(run, run);
+    this.queue = p;
+    return p;
+  }
+
+  /**
+   * A focus series: every frame analysed in the worker (no plate solving), then the series fitted
+   * there, as `skyloupe through-focus` does. Arguments checked by validate.focusSeries.
+   */
+  throughFocus(req: FocusSeriesJob, onProgress?: (p: Progress) => void): Promise<Outcome<FocusSeriesResult>> {
+    const job = this.nextJob++;
+    const off = onProgress ? this.onProgress((p) => { if (p.job === job) onProgress(p); }) : () => {};
+    const p = this.enqueue(async (): Promise<Outcome<FocusSeriesResult>> => {
+      if (job <= this.cancelledUpTo) return fail('cancelled', 'analysis cancelled');
+      const t0 = performance.now();
+      try {
+        // copies, so the caller's buffers stay usable; the copies move to the worker
+        const frames = req.frames.map((f) => ({ name: f.name, bytes: new Uint8Array(f.bytes), position: f.position }));
+        const msg: ToWorker = {
+          type: 'through-focus', job, frames, stepUnitUm: req.stepUnitUm, wavelengthNm: req.wavelengthNm,
+          entered: req.optics, remembered: this.opts.memory.all(), workers: this.opts.measureWorkers,
+        };
+        this.emit(job, 'series', 0);
+        const m = await this.runJob(job, msg, frames.map((f) => f.bytes.buffer as ArrayBuffer));
+        if (m.type !== 'series-result') throw new Error('the worker answered a focus series with a frame');
+        const out: FocusSeriesOutput = m.series;
+        this.emit(job, 'done', 1);
+        return { ok: true, value: { result: out.result, positions: out.positions, elapsedMs: Math.round(performance.now() - t0) } };
+      } catch (err) {
+        return toOutcome(err);
+      }
+    });
+    void p.finally(off);
+    return p;
+  }
+
   private analyzeJob(job: number, file: { name: string; bytes: Uint8Array }, entered?: OpticsInput): Promise<Outcome<AnalysisResult>> {
     const run = async (): Promise<Outcome<AnalysisResult>> => {
       if (job <= this.cancelledUpTo) return fail('cancelled', 'analysis cancelled');
       const t0 = performance.now();
       try {
-        const out = await this.runJob(job, file, entered);
+        this.emit(job, 'read', 0);
+        // a copy, so the caller's buffer stays usable; the copy moves to the worker without another one
+        const bytes = new Uint8Array(file.bytes);
+        const msg: ToWorker = {
+          type: 'analyze', job, name: file.name, bytes, entered,
+          remembered: this.opts.memory.all(), workers: this.opts.measureWorkers,
+        };
+        const m = await this.runJob(job, msg, [bytes.buffer as ArrayBuffer]);
+        if (m.type !== 'result') throw new Error('the worker answered a frame with a focus series');
+        const out: PipelineOutput = { result: m.result, pixels: m.pixels, frame: m.frame };
         const id = randomBytes(6).toString('hex');
         const result: AnalysisResult = { ...out.result, id, elapsedMs: Math.round(performance.now() - t0) };
         // entered optics are remembered once the worker has named the camera; a memory that
@@ -122,9 +180,7 @@ export class EngineSession {
         return toOutcome(err);
       }
     };
-    const p = this.queue.then(run, run);
-    this.queue = p;
-    return p;
+    return this.enqueue(run);
   }
 
   /** Cancel the running job and everything queued behind it. */
@@ -257,7 +313,7 @@ export class EngineSession {
       const cur = this.current;
       if (!cur || m.job !== cur.job) return;
       if (m.type === 'progress') this.emit(m.job, m.stage, m.fraction);
-      else if (m.type === 'result') cur.resolve({ result: m.result, pixels: m.pixels, frame: m.frame });
+      else if (m.type === 'result' || m.type === 'series-result') cur.resolve(m);
       else cur.reject(new SkyloupeError(m.kind, m.message));
     });
     const died = (err: unknown) => {
@@ -277,19 +333,11 @@ export class EngineSession {
     if (w) void w.terminate();
   }
 
-  private runJob(job: number, file: { name: string; bytes: Uint8Array }, entered?: OpticsInput): Promise<PipelineOutput> {
-    return new Promise<PipelineOutput>((resolve, reject) => {
+  private runJob(job: number, msg: ToWorker, transfer: ArrayBuffer[]): Promise<Answer> {
+    return new Promise<Answer>((resolve, reject) => {
       const done = () => { if (this.current?.timer) clearTimeout(this.current.timer); this.current = null; };
       this.current = { job, resolve: (o) => { done(); resolve(o); }, reject: (e) => { done(); reject(e); } };
-      this.emit(job, 'read', 0);
-      const w = this.ensureWorker();
-      // a copy, so the caller's buffer stays usable; the copy moves to the worker without another one
-      const bytes = new Uint8Array(file.bytes);
-      const msg: ToWorker = {
-        type: 'analyze', job, name: file.name, bytes, entered,
-        remembered: this.opts.memory.all(), workers: this.opts.measureWorkers,
-      };
-      w.postMessage(msg, [bytes.buffer]);
+      this.ensureWorker().postMessage(msg, transfer);
     });
   }
 }

@@ -75,6 +75,53 @@ export function sweepPoints(v: unknown): { id: string; spacingMm: number }[] {
   });
 }
 
+/** A focus series as the host runs it (validate.focusSeries): bytes as views, everything checked. */
+export interface FocusSeriesJob {
+  frames: { name: string; bytes: Uint8Array; position: number | null }[];
+  stepUnitUm: number | null;
+  optics?: OpticsInput;
+  wavelengthNm?: number;
+}
+
+/** Most frames in one focus series, and the most bytes all of them may hold together. */
+export const MAX_SERIES_FRAMES = 24;
+export const MAX_SERIES_BYTES = 1024 * 1024 * 1024;
+
+export function focusSeries(v: unknown): FocusSeriesJob {
+  if (typeof v !== 'object' || v === null || Array.isArray(v)) throw usage('a focus series must be an object');
+  const { frames, stepUnitUm, optics: o, wavelengthNm } = v as Record<string, unknown>;
+  if (!Array.isArray(frames)) throw usage('a focus series needs a list of frames');
+  if (frames.length === 2) throw usage('two frames cannot show a focus curve: for two frames a known step apart use the focus pair, or add a third frame (five or more across focus are better)');
+  if (frames.length < 3) throw usage('a focus series needs three or more frames at different focuser positions (five or more across focus are better)');
+  if (frames.length > MAX_SERIES_FRAMES) throw usage(`a focus series takes at most ${MAX_SERIES_FRAMES} frames`);
+  let total = 0;
+  const out = frames.map((f, i) => {
+    if (typeof f !== 'object' || f === null) throw usage(`series frame ${i + 1} must be an object`);
+    const { name, bytes, position } = f as Record<string, unknown>;
+    const n = fileName(name);
+    const b = frameBytes(bytes);
+    total += b.length;
+    if (position !== null && position !== undefined && (typeof position !== 'number' || !Number.isFinite(position) || Math.abs(position) > 1e7)) {
+      throw usage(`${n}: the focuser position must be a number (or left empty to read it from the header)`);
+    }
+    return { name: n, bytes: b, position: typeof position === 'number' ? position : null };
+  });
+  if (total > MAX_SERIES_BYTES) throw usage(`the series is too large (${total} bytes, limit ${MAX_SERIES_BYTES})`);
+  const typed = out.map((f) => f.position).filter((p): p is number => p !== null);
+  if (typed.length === out.length && new Set(typed).size === 1) throw usage(`every frame is at the same position (${typed[0]}): step the focuser between frames`);
+  let step: number | null = null;
+  if (stepUnitUm !== null && stepUnitUm !== undefined) {
+    if (typeof stepUnitUm !== 'number' || !Number.isFinite(stepUnitUm) || stepUnitUm <= 0 || stepUnitUm > 10_000) throw usage('the focuser step must be a number of µm above 0 (at most 10 000)');
+    step = stepUnitUm;
+  }
+  let wl: number | undefined;
+  if (wavelengthNm !== null && wavelengthNm !== undefined) {
+    if (typeof wavelengthNm !== 'number' || !Number.isFinite(wavelengthNm) || wavelengthNm < 200 || wavelengthNm > 2000) throw usage('the wavelength is in nanometres, 200 to 2000');
+    wl = wavelengthNm;
+  }
+  return { frames: out, stepUnitUm: step, optics: optics(o), wavelengthNm: wl };
+}
+
 /** A camera key as the engine makes it (pipeline.ts cameraKey): 1 to 120 printable characters. */
 export function cameraKey(v: unknown): string {
   if (typeof v !== 'string' || v.length === 0 || v.length > 120 || /[\u0000-\u001f\u007f]/.test(v)) throw usage('camera name must be 1 to 120 printable characters');

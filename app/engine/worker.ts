@@ -5,6 +5,7 @@
 import { parentPort } from 'node:worker_threads';
 import { SkyloupeError } from '../../core/errors.ts';
 import { runPipeline } from './pipeline.ts';
+import { runFocusSeries } from './focus-series.ts';
 import type { ToWorker, FromWorker } from './protocol.ts';
 
 const port = parentPort;
@@ -19,6 +20,16 @@ port.on('message', async (msg: ToWorker) => {
   const ctl = new AbortController();
   running.set(job, ctl);
   try {
+    if (msg.type === 'through-focus') {
+      const series = await runFocusSeries({
+        frames: msg.frames, stepUnitUm: msg.stepUnitUm, wavelengthNm: msg.wavelengthNm, entered: msg.entered,
+        remembered: msg.remembered, workers: msg.workers, signal: ctl.signal,
+        onProgress: (fraction) => post({ type: 'progress', job, stage: 'series', fraction }),
+      });
+      if (ctl.signal.aborted) throw new SkyloupeError('cancelled', 'analysis cancelled');
+      post({ type: 'series-result', job, series });
+      return;
+    }
     const out = await runPipeline({
       name: msg.name,
       bytes: msg.bytes,

@@ -104,6 +104,7 @@ function registerBridge(): void {
   handle(CHANNELS.stamp, (id, i) => engine.stamp(check.analysisId(id), check.starIndex(i)));
   handle(CHANNELS.compare, (a, b) => engine.compare(check.analysisId(a), check.analysisId(b)));
   handle(CHANNELS.sweep, (points) => engine.sweep(check.sweepPoints(points)));
+  handle(CHANNELS.throughFocus, (req) => engine.throughFocus(check.focusSeries(req)));
   handle(CHANNELS.forgetOptics, (camera) => engine.forgetOptics(check.cameraKey(camera)));
   handle(CHANNELS.focusPair, (a, b, stepUm) => engine.focusPair(check.analysisId(a), check.analysisId(b), check.focusStepUm(stepUm)));
   handle(CHANNELS.exportReport, async (id, kind) => {
@@ -122,7 +123,7 @@ function registerBridge(): void {
 }
 
 function buildMenu(): void {
-  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['focus', 'Focus plane'], ['corners', 'Corners'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep'], ['focuspair', 'Focus pair']];
+  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['focus', 'Focus plane'], ['corners', 'Corners'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep'], ['focuspair', 'Focus pair'], ['distortion', 'Distortion'], ['through-focus', 'Through focus']];
   const openRecent = async (p: string) => {
     try {
       send('open', await readChosen(p));
@@ -154,7 +155,7 @@ function buildMenu(): void {
     {
       label: 'View',
       submenu: [
-        ...views.map(([v, label], i) => ({ label, accelerator: `CmdOrCtrl+${i + 1}`, click: () => send(`view:${v}`) })),
+        ...views.map(([v, label], i) => ({ label, accelerator: i < 9 ? `CmdOrCtrl+${i + 1}` : undefined, click: () => send(`view:${v}`) })),
         { type: 'separator' },
         { label: 'Night Mode', accelerator: 'CmdOrCtrl+Shift+N', click: () => send('night') },
         { label: 'Zoom In', accelerator: 'CmdOrCtrl+=', click: () => send('zoom-in') },

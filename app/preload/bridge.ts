@@ -7,6 +7,7 @@
 import type { Report, ReportStar } from '../../core/report/types.ts';
 import type { Preview, Tile, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
 import type { StampInput } from '../../core/report/svg/stamp.ts';
+import type { ThroughFocusResult } from '../../core/series/through-focus.ts';
 import type { FocusPairResult } from '../../core/series/focus-pair-types.ts';
 
 export type { FocusPairResult } from '../../core/series/focus-pair-types.ts';
@@ -69,6 +70,31 @@ export interface StampData extends StampInput {
 
 export type ExportKind = 'json' | 'csv' | 'html';
 
+/** One frame of a focus series: its file and its focuser position as typed (null: read from its header). */
+export interface FocusSeriesFrame {
+  name: string;
+  bytes: ArrayBuffer;
+  /** µm at the sensor (larger = sensor farther from the lens), or focuser steps when stepUnitUm is given; null = the header's. */
+  position: number | null;
+}
+
+export interface FocusSeriesRequest {
+  frames: FocusSeriesFrame[];
+  /** The positions are focuser steps of this many µm each; null or absent = they are µm. */
+  stepUnitUm?: number | null;
+  optics?: OpticsInput;
+  /** Wavelength for the critical focus zone, nm (default 550). */
+  wavelengthNm?: number;
+}
+
+export interface FocusSeriesResult {
+  /** skyloupe.throughfocus/1, as `skyloupe through-focus --json` writes it. */
+  result: ThroughFocusResult;
+  /** Per frame as sent: the position as given (µm or steps) and where it came from (typed, or a header keyword). */
+  positions: { name: string; given: number; from: 'typed' | string }[];
+  elapsedMs: number;
+}
+
 export interface SavedFile {
   /** false when the user dismissed the save dialog. */
   saved: boolean;
@@ -97,6 +123,8 @@ export interface SkyloupeBridge {
   stamp(id: string, starIndex: number): Promise<Outcome<StampData>>;
   compare(idA: string, idB: string): Promise<Outcome<CompareResult>>;
   sweep(points: { id: string; spacingMm: number }[]): Promise<Outcome<SweepResult>>;
+  /** A focus series (three or more frames), analysed one after the other in the engine worker; progress as for analyze. */
+  throughFocus(req: FocusSeriesRequest): Promise<Outcome<FocusSeriesResult>>;
   /** Two analysed frames a known focus step apart (µm at the sensor, second minus first): the signed tilt. */
   focusPair(firstId: string, secondId: string, stepUm: number): Promise<Outcome<FocusPairResult>>;
   /** Forget the optics remembered for a camera key (AnalysisResult.camera). */
@@ -118,6 +146,7 @@ export const CHANNELS = {
   stamp: 'skyloupe:stamp',
   compare: 'skyloupe:compare',
   sweep: 'skyloupe:sweep',
+  throughFocus: 'skyloupe:through-focus',
   focusPair: 'skyloupe:focus-pair',
   forgetOptics: 'skyloupe:forget-optics',
   exportReport: 'skyloupe:export',

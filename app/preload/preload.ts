@@ -18,6 +18,7 @@ const bridge: SkyloupeBridge = {
   stamp: (id, i) => ipcRenderer.invoke(CHANNELS.stamp, id, i),
   compare: (a, b) => ipcRenderer.invoke(CHANNELS.compare, a, b),
   sweep: (points) => ipcRenderer.invoke(CHANNELS.sweep, points),
+  throughFocus: (req) => ipcRenderer.invoke(CHANNELS.throughFocus, req),
   forgetOptics: (camera) => ipcRenderer.invoke(CHANNELS.forgetOptics, camera),
   focusPair: (a, b, stepUm) => ipcRenderer.invoke(CHANNELS.focusPair, a, b, stepUm),
   exportReport: (id, kind) => ipcRenderer.invoke(CHANNELS.exportReport, id, kind),

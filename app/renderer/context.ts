@@ -3,7 +3,7 @@
  * the one context; views import no other view and never main.ts (no import cycles).
  */
 import type { Theme } from '../../core/report/svg/index.ts';
-import type { AnalysisResult, Outcome, SkyloupeBridge } from '../preload/bridge.ts';
+import type { AnalysisResult, FrameFile, Outcome, SkyloupeBridge } from '../preload/bridge.ts';
 import type { FrameSource, PageState } from './state.ts';
 
 export interface ViewContext {
@@ -31,4 +31,6 @@ export interface View {
   /** Keyboard key that switches to it ("1" ...). */
   key: string;
   render(el: HTMLElement, ctx: ViewContext): void;
+  /** Frames dropped while this view is shown (all of them); without it a drop opens the first as the current frame. */
+  drop?(files: FrameFile[], ctx: ViewContext): Promise<void> | void;
 }

@@ -3,7 +3,7 @@
  * carrying the run's token in a header. Exports and PNGs become downloads.
  */
 import type {
-  AnalysisResult, AppConfig, CompareResult, ExportKind, FrameFile, MenuCommand, OpticsInput, Outcome, Progress,
+  AnalysisResult, AppConfig, CompareResult, ExportKind, FocusSeriesRequest, FocusSeriesResult, FrameFile, MenuCommand, OpticsInput, Outcome, Progress,
   SavedFile, SkyloupeBridge, StampData, SweepResult, FocusPairResult,
 } from '../preload/bridge.ts';
 
@@ -43,22 +43,22 @@ export function httpBridge(token: string): SkyloupeBridge {
   }
 
   /** Reads the newline-delimited progress lines and the final outcome of an analysis. */
-  async function streamed(path: string, body?: ArrayBuffer): Promise<Outcome<AnalysisResult>> {
+  async function streamed<T = AnalysisResult>(path: string, body?: ArrayBuffer | Blob): Promise<Outcome<T>> {
     let res: Response;
     try {
       // a Blob body uploads off the main thread; an ArrayBuffer body blocks the page for seconds
       // on a large frame (measured: 48 MB, 3-5 s frozen with Chromium 156)
-      res = await fetch(path, { method: 'POST', headers: { ...headers, 'Content-Type': 'application/octet-stream' }, body: body ? new Blob([body]) : undefined });
+      res = await fetch(path, { method: 'POST', headers: { ...headers, 'Content-Type': 'application/octet-stream' }, body: body ? (body instanceof Blob ? body : new Blob([body])) : undefined });
     } catch (err) {
       return failure(`the program is not answering (${err instanceof Error ? err.message : String(err)})`);
     }
     if (!res.ok || !res.body) {
-      try { return (await res.json()) as Outcome<AnalysisResult>; } catch { return failure(`request refused (${res.status})`); }
+      try { return (await res.json()) as Outcome<T>; } catch { return failure(`request refused (${res.status})`); }
     }
     const reader = res.body.getReader();
     const dec = new TextDecoder();
     let buf = '';
-    let result: Outcome<AnalysisResult> | null = null;
+    let result: Outcome<T> | null = null;
     for (;;) {
       const { value, done } = await reader.read();
       if (value) buf += dec.decode(value, { stream: true });
@@ -67,7 +67,7 @@ export function httpBridge(token: string): SkyloupeBridge {
         const line = buf.slice(0, nl);
         buf = buf.slice(nl + 1);
         if (!line.trim()) continue;
-        const msg = JSON.parse(line) as { type: 'progress'; progress: Progress } | { type: 'outcome'; outcome: Outcome<AnalysisResult> };
+        const msg = JSON.parse(line) as { type: 'progress'; progress: Progress } | { type: 'outcome'; outcome: Outcome<T> };
         if (msg.type === 'progress') for (const cb of listeners) cb(msg.progress);
         else result = msg.outcome;
       }
@@ -91,6 +91,16 @@ export function httpBridge(token: string): SkyloupeBridge {
     },
     stamp: (id: string, i: number) => outcome<StampData>(`/api/stamp?id=${encodeURIComponent(id)}&i=${i}`),
     compare: (a: string, b: string) => outcome<CompareResult>('/api/compare', { method: 'POST', body: JSON.stringify({ a, b }), headers: { 'Content-Type': 'application/json' } }),
+    throughFocus(req: FocusSeriesRequest) {
+      // one body: 4-byte little-endian length of the JSON head, the head, then each frame's bytes (app/serve/server.ts splitSeriesBody)
+      const head = new TextEncoder().encode(JSON.stringify({
+        frames: req.frames.map((f) => ({ name: f.name, position: f.position, size: f.bytes.byteLength })),
+        stepUnitUm: req.stepUnitUm ?? null, optics: req.optics ?? null, wavelengthNm: req.wavelengthNm ?? null,
+      }));
+      const len = new Uint8Array(4);
+      new DataView(len.buffer).setUint32(0, head.length, true);
+      return streamed<FocusSeriesResult>('/api/through-focus', new Blob([len, head, ...req.frames.map((f) => f.bytes)]));
+    },
     sweep: (points) => outcome<SweepResult>('/api/sweep', { method: 'POST', body: JSON.stringify({ points }), headers: { 'Content-Type': 'application/json' } }),
     forgetOptics: (camera) => outcome<null>('/api/forget-optics', { method: 'POST', body: JSON.stringify({ camera }), headers: { 'Content-Type': 'application/json' } }),
     focusPair: (a, b, stepUm) => outcome<FocusPairResult>('/api/focus-pair', { method: 'POST', body: JSON.stringify({ a, b, stepUm }), headers: { 'Content-Type': 'application/json' } }),

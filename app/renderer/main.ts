@@ -14,7 +14,7 @@ import { viewPng } from './png.ts';
 import { state, theme, type FrameSource } from './state.ts';
 import type { ViewContext } from './context.ts';
 import { VIEWS, viewNamed } from './views/index.ts';
-import { panBy, zoomBy, zoomReset } from './views/sky.ts';
+import { panBy, toggleLabels, zoomBy, zoomReset } from './views/sky.ts';
 import { setCompareFrame } from './views/compare.ts';
 import { showMessage, failureText, setBusy, onProgress } from './messages.ts';
 import { renderSummary, renderStar, selectStar } from './side.ts';
@@ -38,6 +38,8 @@ const VIEW_HELP: Record<string, string> = {
   compare: 'two frames zone by zone on the same scale (two lenses, two settings).',
   sweep: 'frames at several spacer distances: the spacing where the corner stars come out best.',
   focuspair: 'two frames a known focus step apart: which side of the sensor is too close to the lens.',
+  distortion: 'where the frame is on the sky and what the lens does to geometry: a square grid as the lens draws it and the measured shift of each catalogue star, both drawn enlarged by a stated factor.',
+  'through-focus': 'three or more frames at different focuser positions: focus curves per zone, the best-focus surface (tilt, curvature), spherical aberration, and one star\'s discs across the series.',
 };
 
 const TERMS: [string, string][] = [
@@ -51,13 +53,16 @@ const TERMS: [string, string][] = [
   ['Coma', 'stars with a flare pointing toward or away from the centre.'],
   ['σ (significance)', 'how many standard errors a measured effect stands above noise; 3 σ and more is taken as real.'],
   ['Zone', 'one cell of the grid the frame is divided into; zone values are robust means of the stars inside.'],
+  ['Distortion', 'the lens moves stars from where a distortion-free lens would put them, without blurring them: barrel (squeezed toward the corners), pincushion (stretched), mustache (both). In % at the corners.'],
+  ['Saturated', 'a star whose brightest pixels reached the camera\'s ceiling: its core is clipped, so its size and shape are not measured.'],
+  ['Critical focus zone', 'the range of focuser travel over which a star looks equally sharp, ±2.44 λ N² (common practice).'],
 ];
 
 function helpDialog(): HTMLDialogElement {
   const keys: [string, string][] = [
-    [`${VIEWS[0].key} – ${VIEWS[VIEWS.length - 1].key}`, 'switch view'], ['O', 'open a frame'], ['D', 'demo frame'], ['F', 'optics in use'], ['N', 'night mode'],
+    [VIEWS.map((v) => v.key.toUpperCase()).join(' '), 'switch view'], ['O', 'open a frame'], ['D', 'demo frame'], ['F', 'optics in use'], ['N', 'night mode'],
     ['E', 'save the HTML report'], ['P', 'save the view as PNG'], ['+  −  0', 'zoom in, out, reset (Sky)'], ['arrows', 'pan (Sky)'],
-    ['[  ]', 'previous / next star (Sky)'], ['Esc', 'stop the analysis, close this'], ['?', 'this help'],
+    ['[  ]', 'previous / next star (Sky)'], ['L', 'catalogue names on or off (Sky)'], ['Esc', 'stop the analysis, close this'], ['?', 'this help'],
   ];
   const dl = (rows: [string, string][]) => h('dl', {}, ...rows.flatMap(([k, v]) => [h('dt', {}, k), h('dd', {}, v)]));
   return h('dialog', { id: 'help-dialog', 'aria-label': 'Help' },
@@ -318,8 +323,11 @@ function wireInput(): void {
     ev.preventDefault();
     depth = 0;
     overlay.hidden = true;
-    const f = ev.dataTransfer?.files?.[0];
+    const dropped = Array.from(ev.dataTransfer?.files ?? []);
+    const f = dropped[0];
     if (!f) return;
+    const view = viewNamed(state.view);
+    if (view?.drop) { await view.drop(await Promise.all(dropped.map(fileFrom)), ctx); return; }
     const file = await fileFrom(f);
     if (state.view === 'compare') {
       const which = state.compare.a && !state.compare.b ? 'b' : 'a';
@@ -339,6 +347,7 @@ function wireInput(): void {
       case 'o': case 'O': void openDialog(); break;
       case 'd': case 'D': void openMain({ kind: 'demo' }); break;
       case 'n': case 'N': toggleNight(); break;
+      case 'l': case 'L': if (onSky) toggleLabels(ctx); break;
       case 'f': case 'F': if (state.current) toggleOptics(); break;
       case 'e': case 'E': void exportKind('html'); break;
       case 'p': case 'P': void exportPng(); break;

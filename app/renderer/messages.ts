@@ -7,6 +7,7 @@ import { FRAME_KINDS_WORDS } from '../../core/frame/extensions.ts';
 const STAGE_WORDS: Record<string, string> = {
   read: 'Reading the frame', background: 'Modelling the sky background', detect: 'Finding stars',
   measure: 'Measuring star shapes', field: 'Mapping the field', images: 'Drawing the previews', done: 'Done',
+  series: 'Analysing the focus series frame by frame',
 };
 
 let messageTimer: ReturnType<typeof setTimeout> | undefined;

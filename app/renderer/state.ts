@@ -17,6 +17,8 @@ export const state = {
   night: false,
   sizeQuantity: 'fwhmPx' as SizeQuantity,
   shapeMode: 'zones' as 'zones' | 'stars',
+  /** Catalogue names on the Sky view (frames placed on the sky). */
+  skyLabels: false,
   selected: null as number | null,
   /** Star indices in falling SNR, for keyboard stepping. */
   order: [] as number[],

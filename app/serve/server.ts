@@ -94,6 +94,34 @@ async function readJson(req: http.IncomingMessage): Promise<Record<string, unkno
   }
 }
 
+/**
+ * A focus series travels as one body: a 4-byte little-endian length, that many bytes of JSON
+ * ({ frames: [{ name, position, size }], stepUnitUm, optics, wavelengthNm }), then the frames'
+ * bytes one after the other (renderer/http-bridge.ts writes it).
+ */
+export function splitSeriesBody(body: Buffer): Record<string, unknown> {
+  if (body.length < 4) throw usage('the focus series upload is empty');
+  const n = body.readUInt32LE(0);
+  if (n > 1024 * 1024 || 4 + n > body.length) throw usage('the focus series upload is malformed');
+  let head: Record<string, unknown>;
+  try {
+    head = JSON.parse(body.subarray(4, 4 + n).toString('utf8')) as Record<string, unknown>;
+  } catch {
+    throw usage('the focus series upload is malformed');
+  }
+  if (typeof head !== 'object' || head === null || !Array.isArray(head.frames)) throw usage('the focus series upload is malformed');
+  let at = 4 + n;
+  const frames = (head.frames as unknown[]).map((f, i) => {
+    const size = (f as { size?: unknown } | null)?.size;
+    if (typeof size !== 'number' || !Number.isInteger(size) || size < 0 || at + size > body.length) throw usage(`series frame ${i + 1}: its size does not match the upload`);
+    const bytes = new Uint8Array(body.buffer, body.byteOffset + at, size);
+    at += size;
+    return { ...(f as object), bytes };
+  });
+  if (at !== body.length) throw usage('the focus series upload is malformed (bytes left over)');
+  return { ...head, frames };
+}
+
 function opticsParam(url: URL): unknown {
   const raw = url.searchParams.get('optics');
   if (!raw) return undefined;
@@ -147,6 +175,10 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
       case 'POST /api/sweep': {
         const b = await readJson(req);
         return sendJson(res, 200, session.sweep(check.sweepPoints(b.points)));
+      }
+      case 'POST /api/through-focus': {
+        const job = check.focusSeries(splitSeriesBody(await readBody(req, check.MAX_SERIES_BYTES + 1024 * 1024)));
+        return streamAnalysis(res, (onP) => session.throughFocus(job, onP));
       }
       case 'POST /api/forget-optics': {
         const b = await readJson(req);

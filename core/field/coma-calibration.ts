@@ -169,7 +169,8 @@ export function computeComaTable(): { x: Float64Array; T: Float64Array; D: Float
 // here, in calibration-tables.gen.ts (`npm run build:calibration`), and
 // test/unit/calibration-tables.test.ts checks the stored values are what the code computes now,
 // bit for bit. SKYLOUPE_TABLES=compute ray-traces them instead.
-const TABLES_FROM_SOURCES = typeof process !== 'undefined' && process.env?.SKYLOUPE_TABLES === 'compute';
+// (read through globalThis: the page's type check has no Node types, and a page has no process)
+const TABLES_FROM_SOURCES = (globalThis as { process?: { env?: Record<string, string | undefined> } }).process?.env?.SKYLOUPE_TABLES === 'compute';
 function f64(b64: string): Float64Array {
   const bytes = Uint8Array.from(atob(b64), (ch) => ch.charCodeAt(0));
   return new Float64Array(bytes.buffer, 0, bytes.length / 8);

@@ -27,11 +27,12 @@ function jsonBlock(r: ThroughFocusResult): string {
   return `<script type="application/json" id="skyloupe-throughfocus">${JSON.stringify(r).replace(/</g, '\\u003c')}</script>`;
 }
 
-export function throughFocusHtml(r: ThroughFocusResult, opts: { name?: string; theme?: Theme } = {}): string {
-  const theme = opts.theme ?? PRINT;
-  const like = r as unknown as ThroughFocusLike;
-  const fig = (svg: string, caption: string) => `<figure>${svg}<figcaption>${esc(caption)}</figcaption></figure>`;
-  const rows: [string, string][] = [
+/**
+ * The series' numbers as [label, value] rows (values are HTML, text escaped): the HTML page and
+ * the desktop program's Through focus view show the same rows.
+ */
+export function throughFocusSummaryRows(r: ThroughFocusResult): [string, string][] {
+  return [
     ['Frames', `${r.positionsUm.length}, from ${num(r.positionsUm[0], 1)} to ${num(r.positionsUm[r.positionsUm.length - 1], 1)} µm${r.stepUnitUm ? ` (focuser steps of ${num(r.stepUnitUm, 3)} µm)` : ''}; ${r.stars.length} stars followed; ${r.grid.cols} × ${r.grid.rows} zones`],
     ['Best focus, on average over the frame', `${pm(r.bestFocusUm, r.bestFocusErrUm, 1)} µm`],
     ['Best focus at the centre', `${pm(r.centreFocusUm, r.centreFocusErrUm, 1)} µm`],
@@ -42,6 +43,13 @@ export function throughFocusHtml(r: ThroughFocusResult, opts: { name?: string; t
     ['Astigmatism: sagittal minus tangential focus at the corners', r.astigmatism ? `${pm(r.astigmatism.separationUm, r.astigmatism.separationErrUm, 1)} µm${r.astigmatism.significant ? '' : ' (not significant)'}` : '–'],
     ['Spherical aberration', r.spherical.longitudinalUm === null ? esc(r.spherical.note ?? '–') : `${esc(r.spherical.kind)}, ${pm(r.spherical.longitudinalUm, r.spherical.errUm, 1)} µm${r.spherical.significant ? '' : ' (not significant)'}`],
   ];
+}
+
+export function throughFocusHtml(r: ThroughFocusResult, opts: { name?: string; theme?: Theme } = {}): string {
+  const theme = opts.theme ?? PRINT;
+  const like = r as unknown as ThroughFocusLike;
+  const fig = (svg: string, caption: string) => `<figure>${svg}<figcaption>${esc(caption)}</figcaption></figure>`;
+  const rows = throughFocusSummaryRows(r);
   const order: Record<string, number> = { major: 0, minor: 1, info: 2 };
   const findings = [...r.findings].sort((a, b) => order[a.severity] - order[b.severity])
     .map((f) => `<li class="finding severity-${esc(f.severity)}"><span class="severity">${esc(SEVERITY_WORDS[f.severity])}</span> ${esc(f.message)}</li>`).join('');

@@ -12,9 +12,11 @@ import { findingsView } from './findings.ts';
 import { compareView } from './compare.ts';
 import { sweepView } from './sweep.ts';
 import { focusPairView } from './focuspair.ts';
+import { distortionView } from './distortion.ts';
+import { throughFocusView } from './through-focus.ts';
 
 export const VIEWS: readonly View[] = [
-  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView, focusPairView,
+  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView, focusPairView, distortionView, throughFocusView,
 ];
 
 export function viewNamed(name: string): View | undefined {

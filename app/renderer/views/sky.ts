@@ -15,9 +15,15 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   const zoomOut = button('btn-zoom-out', '−', 'Zoom out (−)');
   const zoomReset = button('btn-zoom-reset', 'Fit', 'Whole frame (0)');
   const counts = r.report.stars.length;
-  el.append(toolbar(zoomIn, zoomOut, zoomReset, h('span', { class: 'muted', id: 'sky-note' }, `${r.report.summary.stars} clean of ${counts} measured stars · click a star for its numbers · wheel or +/− to zoom, drag to pan`)));
+  const solved = !!r.report.astrometry?.solved && r.report.astrometry.matches.length > 0;
+  const labelled = solved && ctx.state.skyLabels;
+  const labels = button('btn-sky-labels', 'Catalogue names', solved ? 'Label the stars matched to the catalogue (L)' : 'The frame was not placed on the sky: no catalogue stars to label', {
+    'aria-pressed': String(labelled), disabled: !solved,
+  });
+  labels.addEventListener('click', () => toggleLabels(ctx));
+  el.append(toolbar(zoomIn, zoomOut, zoomReset, labels, h('span', { class: 'muted', id: 'sky-note' }, `${r.report.summary.stars} clean of ${counts} measured stars · click a star for its numbers · wheel or +/− to zoom, drag to pan`)));
   const holder = h('div', { class: 'figure sky-figure' });
-  setMarkup(holder, skySvg(r.report, { theme: ctx.theme(), preview: r.preview, width: w }));
+  setMarkup(holder, skySvg(r.report, { theme: ctx.theme(), preview: r.preview, width: w, labels: labelled }));
   el.append(holder);
   const svg = holder.querySelector('svg') as SVGSVGElement;
   svg.removeAttribute('height');
@@ -62,8 +68,16 @@ function render(el: HTMLElement, ctx: ViewContext): void {
 function redrawKey(svg: SVGSVGElement, ctx: ViewContext, u: number, k: number): void {
   const old = svg.querySelector('g.sky-key');
   if (!old || !ctx.state.current) return;
-  old.insertAdjacentHTML('afterend', skyKey(ctx.state.current.report, ctx.theme(), u, k));
+  const labels = ctx.state.skyLabels && !!ctx.state.current.report.astrometry?.solved;
+  old.insertAdjacentHTML('afterend', skyKey(ctx.state.current.report, ctx.theme(), u, k, { labels }));
   old.remove();
+}
+
+/** Show or hide the catalogue names (button and key L). */
+export function toggleLabels(ctx: ViewContext): void {
+  if (!ctx.state.current?.report.astrometry?.solved) return;
+  ctx.state.skyLabels = !ctx.state.skyLabels;
+  ctx.rerender();
 }
 
 function skyElement(): SVGSVGElement | null {
