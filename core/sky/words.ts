@@ -42,7 +42,7 @@ export function skySummaryLines(s: AstrometrySection): string[] {
   const d = s.distortion;
   if (d) {
     const pat = d.pattern === 'none' ? 'no significant distortion' : d.pattern;
-    lines.push(`lens: ${pat}, ${sgn(d.cornerPercent)} %${d.cornerPercentErr !== null ? ` +- ${d.cornerPercentErr.toFixed(2)}` : ''} at the corners (${sgn(d.edgePercent.x)} % / ${sgn(d.edgePercent.y)} % at the side / top edges), largest shift ${d.maxShiftPx.toFixed(1)} px`);
+    lines.push(`lens: ${pat}, ${sgn(d.cornerPercent)} %${d.cornerPercentErr !== null ? ` ± ${d.cornerPercentErr.toFixed(2)}` : ''} at the corners (${sgn(d.edgePercent.x)} % / ${sgn(d.edgePercent.y)} % at the side / top edges), largest shift ${d.maxShiftPx.toFixed(1)} px`);
   }
   for (const n of s.notes.filter((n) => n.startsWith('the stars put') || n.startsWith('focal length measured') || n.startsWith('sky scale'))) lines.push(`note: ${n}`);
   return lines;

@@ -6,6 +6,7 @@ import { contours } from 'd3-contour';
 import { scaleLinear } from 'd3-scale';
 import type { Report } from '../types.ts';
 import { evalSurface } from '../../field/surface.ts';
+import { ellipticityFromDistortion } from '../shared-ellipticity.ts';
 import type { Surface } from '../../field/types.ts';
 import type { Theme } from './theme.ts';
 import { colorKey, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, type FrameMap } from './util.ts';
@@ -15,7 +16,7 @@ export type SizeQuantity = 'fwhmPx' | 'fwhmArcsec' | 'ellipticity';
 export const QUANTITY_LABEL: Record<SizeQuantity, string> = {
   fwhmPx: 'FWHM (px)',
   fwhmArcsec: 'FWHM (arcsec)',
-  ellipticity: 'Ellipticity 1 − b/a',
+  ellipticity: 'Shared ellipticity 1 − b/a',
 };
 
 /**
@@ -46,11 +47,7 @@ function padByEdges(v: Float64Array, cols: number, rows: number): Float64Array {
   return out;
 }
 
-/** Ellipticity 1 - b/a from the distortion |e| (optics.md 1.3: (b/a)^2 = (1 - e)/(1 + e)). */
-export function ellipticityFromDistortion(e: number): number {
-  const c = Math.min(Math.abs(e), 0.999);
-  return 1 - Math.sqrt((1 - c) / (1 + c));
-}
+export { ellipticityFromDistortion } from '../shared-ellipticity.ts';
 
 /** Why a quantity cannot be mapped, or null when it can. */
 export function heatUnavailable(report: Report, q: SizeQuantity): string | null {
