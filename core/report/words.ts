@@ -123,7 +123,7 @@ export const NUMBER_WORDS: Readonly<Record<string, { label: string; unit?: strin
   axisDeg: { label: 'direction of steepest focus change', unit: '°' },
   axisErrDeg: { label: 'direction uncertainty', unit: '°' },
   uphillDeg: { label: 'direction in which the focus error grows', unit: '°' },
-  tiltMrad: { label: 'tilt (µm of shim per mm of ring)', unit: 'mrad' },
+  tiltMrad: { label: 'tilt: shim per mm of ring diameter', unit: 'µm per mm' },
   worstCorner: { label: 'softest corner' },
   magnitudeUm: { label: 'tilt across the frame', unit: 'µm' },
   farSide: { label: 'side farther from the lens' },
