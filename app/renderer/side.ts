@@ -1,5 +1,6 @@
 /** The side panel (summary, selected star) and the optics form above the views. */
 import { summaryHtml, stampSvg, esc, num } from '../../core/report/svg/index.ts';
+import { findingsCountWords } from '../../core/report/words.ts';
 import { $, setMarkup } from './dom.ts';
 import { state, theme } from './state.ts';
 
@@ -8,7 +9,7 @@ export function renderSummary(): void {
   const el = $('#summary');
   if (!r) { setMarkup(el, '<p class="muted">Drop a frame anywhere, or open one. The demo frame shows what skyloupe finds.</p>'); return; }
   const findings = r.report.findings;
-  const counts = findings ? `${findings.length} finding${findings.length === 1 ? '' : 's'} (${findings.filter((f) => f.severity === 'major').length} to act on)` : 'no diagnosis';
+  const counts = esc(findingsCountWords(findings));
   const from = r.opticsFrom === 'remembered' ? `<p class="muted">Optics remembered for “${esc(r.camera)}” were used.</p>` : '';
   setMarkup(el, `<h2>Summary</h2>${summaryHtml(r.report)}<p class="findings-count" data-count="${findings?.length ?? 0}">${counts}</p>${from}`);
 }
@@ -39,7 +40,7 @@ export async function renderStar(): Promise<void> {
     ['Position', `${num(s.x, 1)}, ${num(s.y, 1)} px`],
     ['FWHM', `${num(s.fwhmPx)} ± ${num(s.err.fwhmPx)} px${plate ? ` · ${num(s.fwhmPx * plate)}″` : ''}`],
     ['Axes', `${num(s.fwhmMajorPx)} × ${num(s.fwhmMinorPx)} px`],
-    ['Ellipticity', `${num(s.ellipticity, 3)} ± ${num(s.err.ellipticity, 3)}`],
+    ['Ellipticity (this star)', `${num(s.ellipticity, 3)} ± ${num(s.err.ellipticity, 3)}`],
     ['Long axis', `${num(s.thetaDeg, 1)}°`],
     ['HFD', `${num(s.hfdPx)} px`],
     ['SNR', num(s.snr, 0)],
