@@ -1,10 +1,12 @@
-/** Field map, diagnosis and findings for the report (core/diagnose). */
+/** Field map, diagnosis and findings for the report (core/diagnose), as the CLI makes them. */
 import type { Analysis } from '../../core/analyze.ts';
 import type { Report } from '../../core/report/types.ts';
 import { diagnose } from '../../core/diagnose/index.ts';
 import { contextOf } from '../../core/diagnose/context.ts';
+import { skyFindings } from '../../core/sky/finding.ts';
 
 export function diagnoseExtras(a: Analysis): Pick<Report, 'diagnosis' | 'findings' | 'field'> {
   const d = diagnose(a.stars, contextOf(a));
-  return { field: d.field, diagnosis: d.diagnosis, findings: d.findings };
+  // the plate solution's findings too (distortion, a focal length other than stated), as in reportFromAnalysis
+  return { field: d.field, diagnosis: d.diagnosis, findings: [...d.findings, ...skyFindings(a.astrometry)] };
 }
