@@ -1,5 +1,5 @@
 /** The plate solution as short lines for the CLI summary and the HTML table (one wording for both). */
-import type { AstrometrySection } from './section.ts';
+import type { AstrometrySection } from './section-types.ts';
 
 /** RA as h m s and Dec as d m s (sexagesimal, the usual way to write them). */
 export function sexagesimal(raDeg: number, decDeg: number): string {
