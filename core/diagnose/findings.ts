@@ -60,7 +60,7 @@ export function buildFindings(d: Diagnosis, g: Geometry, u: Units, map?: FieldMa
     });
   }
   const t = d.tilt;
-  const sigma = (s: number) => `${fmt(s, 1)} sigma`;
+  const sigma = (s: number) => `${fmt(s, 1)} σ`;
   if (d.starsUsed < 30 && cov.cleanStars < 30) {
     out.push({ code: 'FEW_STARS', severity: 'info', message: `Only ${d.starsUsed} clean stars: too few for a reliable field diagnosis; use a longer exposure or a richer field.`, numbers: { starsUsed: d.starsUsed } });
   }

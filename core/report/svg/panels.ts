@@ -21,13 +21,11 @@ export function findingsHtml(findings: Report['findings']): string {
   }).join('') + '</ol>';
 }
 
-const cap = (t: string) => t[0].toUpperCase() + t.slice(1);
-
 /** A zone's row: stars, FWHM and both ellipticities under their names (core/report/words.ts). */
 function zoneCell(z: ZoneSummary, zone: string): string {
   if (z.stars === 0) return 'no stars';
   const q = (k: 'medianEllipticity' | 'sharedEllipticity') => `${esc(QUANTITIES[k].label)} <span data-k="${zone}-${k}" title="${esc(QUANTITIES[k].help)}">${formatQuantity(k, z[k])}</span>`;
-  return `${z.stars} stars · FWHM ${formatQuantity('medianFwhmPx', z.medianFwhmPx)} px · ${q('medianEllipticity')} · ${q('sharedEllipticity')}`;
+  return `${z.stars} stars · FWHM ${formatQuantity('medianFwhmPx', z.medianFwhmPx)} px<br>${q('medianEllipticity')}<br>${q('sharedEllipticity')}`;
 }
 
 export function summaryHtml(report: Report): string {
@@ -40,7 +38,7 @@ export function summaryHtml(report: Report): string {
     ...(report.frame.saturation ? [['Saturation', esc(saturationText(report.frame.saturation))] as [string, string]] : []),
     ['Stars', `<span data-k="stars">${s.stars}</span> used of <span data-k="measured">${report.detection.measured}</span> measured (${report.detection.candidates} detections)`],
     ['FWHM', `<span data-k="fwhm">${formatQuantity('medianFwhmPx', s.medianFwhmPx)}</span> px${s.medianFwhmArcsec !== null ? ` · ${formatQuantity('medianFwhmArcsec', s.medianFwhmArcsec)}″` : ''} (median) · HFD ${formatQuantity('medianHfdPx', s.medianHfdPx)} px`],
-    [cap(QUANTITIES.medianEllipticity.label), `<span data-k="ellipticity" title="${esc(QUANTITIES.medianEllipticity.help)}">${formatQuantity('medianEllipticity', s.medianEllipticity)}</span>`],
+    ['Shape', `${esc(QUANTITIES.medianEllipticity.label)} <span data-k="ellipticity" title="${esc(QUANTITIES.medianEllipticity.help)}">${formatQuantity('medianEllipticity', s.medianEllipticity)}</span>`],
     ['Centre', zoneCell(s.center, 'center')],
     ['Corners', zoneCell(s.corners, 'corners')],
     ['Shown', esc(report.frame.display.note)],
