@@ -66,7 +66,7 @@ export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string
   add('shape', 'Shape map', fig(shapeSvg(report, { theme, width: 900 }), 'A line per zone: its length grows with the elongation a/b, its direction is the long axis of the stars there.'));
   add('size', 'Size maps', fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
     + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
-    + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), `${cap(QUANTITIES.sharedEllipticity.label)} 1 − b/a over the field, with contours: ${QUANTITIES.sharedEllipticity.help}.`));
+    + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), `${cap(QUANTITIES.sharedEllipticity.label)} 1 − b/a over the field, with contours: the elongation the stars of each part of the frame have in common (their e1, e2 averaged as vectors, so each star's noise averages out).`));
   add('focus', 'Focus plane', fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
   if (report.astrometry) {
     const dd = distortionFigureData(report);

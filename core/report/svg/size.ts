@@ -19,6 +19,9 @@ export const QUANTITY_LABEL: Record<SizeQuantity, string> = {
   ellipticity: 'Shared ellipticity 1 − b/a',
 };
 
+/** The colour key's title (narrower than the figure's). */
+const KEY_LABEL: Record<SizeQuantity, string> = { fwhmPx: 'FWHM (px)', fwhmArcsec: 'FWHM (arcsec)', ellipticity: '1 − b/a (shared)' };
+
 /**
  * Values on a regular grid over the frame: cell (q, r) covers frame columns
  * [q dx - 0.5, (q + 1) dx - 0.5) and rows likewise (pixel centres at integers); NaN = no value.
@@ -194,9 +197,9 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   }
   out += '</g>' + labels;
   out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
-  out += colorKey(width - keyW + 10, top + 24, keyH, lo, hi, QUANTITY_LABEL[quantity], theme, `${id}-key`);
+  out += colorKey(width - keyW + 10, top + 24, keyH, lo, hi, KEY_LABEL[quantity], theme, `${id}-key`);
   const ky = top + keyH + 46;
-  out += text(width - keyW + 10, ky, g.source === 'surface' ? 'smooth fit' : 'zone medians', theme, { size: 10, fill: theme.muted });
+  out += text(width - keyW + 10, ky, g.source === 'surface' ? 'smooth fit' : quantity === 'ellipticity' ? 'zone vector means' : 'zone medians', theme, { size: 10, fill: theme.muted });
   out += text(width - keyW + 10, ky + 14, `${num(range[0], 2)} – ${num(range[1], 2)}`, theme, { size: 10, fill: theme.muted, cls: 'heat-range' });
   return out + '</svg>';
 }
