@@ -11,9 +11,10 @@ import { cornersView } from './corners.ts';
 import { findingsView } from './findings.ts';
 import { compareView } from './compare.ts';
 import { sweepView } from './sweep.ts';
+import { focusPairView } from './focuspair.ts';
 
 export const VIEWS: readonly View[] = [
-  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView,
+  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView, focusPairView,
 ];
 
 export function viewNamed(name: string): View | undefined {
