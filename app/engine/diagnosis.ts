@@ -11,5 +11,6 @@ import { skyFindings } from '../../core/sky/finding.ts';
 
 export function diagnoseExtras(a: Analysis): Pick<Report, 'diagnosis' | 'findings' | 'field'> {
   const d = diagnose(a.stars, contextOf(a));
+  // the plate solution's findings too (distortion, a focal length other than stated), as in reportFromAnalysis
   return { field: d.field, diagnosis: d.diagnosis, findings: [...d.findings, ...skyFindings(a.astrometry)] };
 }

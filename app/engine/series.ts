@@ -11,7 +11,7 @@ const ZONES = ['center', 'edges', 'corners'] as const;
 
 export function compareResults(a: KeptFrame, b: KeptFrame): CompareResult {
   const s = compareFrames({ ...a.frame, label: a.result.name }, { ...b.frame, label: b.result.name });
-  const cell = (v: (typeof s.zones)['center']['a']) => ({ stars: v.n, fwhm: v.fwhm, fwhmErr: v.fwhmErr, e: v.elongation });
+  const cell = (v: (typeof s.zones)['center']['a']) => ({ stars: v.n, fwhm: v.fwhm, fwhmErr: v.fwhmErr, e: v.sharedEllipticity });
   return {
     a: { id: a.result.id, name: a.result.name },
     b: { id: b.result.id, name: b.result.name },

@@ -1,5 +1,6 @@
 /** The side panel (summary, selected star) and the optics form above the views. */
 import { summaryHtml, stampSvg, esc, num } from '../../core/report/svg/index.ts';
+import { findingsCountWords } from '../../core/report/words.ts';
 import { $, setMarkup } from './dom.ts';
 import { state, theme } from './state.ts';
 import { cameraWords, matchedBySizeAlone } from './optics-panel.ts';
@@ -9,7 +10,7 @@ export function renderSummary(): void {
   const el = $('#summary');
   if (!r) { setMarkup(el, '<p class="muted">Drop a frame anywhere, or open one. The demo frame shows what skyloupe finds.</p>'); return; }
   const findings = r.report.findings;
-  const counts = findings ? `${findings.length} finding${findings.length === 1 ? '' : 's'} (${findings.filter((f) => f.severity === 'major').length} to act on)` : 'no diagnosis';
+  const counts = esc(findingsCountWords(findings));
   const from = matchedBySizeAlone(r)
     ? `<p class="optics-note" data-by-size="true">Optics remembered for another frame of this size were used: the file names no camera, so the match is by frame size alone. <button type="button" class="link" data-action="optics">Check the optics</button></p>`
     : r.opticsFrom === 'remembered' ? `<p class="muted optics-note">Optics remembered for ${esc(cameraWords(r))} were used. <button type="button" class="link" data-action="optics">Optics</button></p>` : '';
@@ -27,7 +28,7 @@ export async function renderStar(): Promise<void> {
     ['Position', `${num(s.x, 1)}, ${num(s.y, 1)} px`],
     ['FWHM', `${num(s.fwhmPx)} ± ${num(s.err.fwhmPx)} px${plate ? ` · ${num(s.fwhmPx * plate)}″` : ''}`],
     ['Axes', `${num(s.fwhmMajorPx)} × ${num(s.fwhmMinorPx)} px`],
-    ['Ellipticity', `${num(s.ellipticity, 3)} ± ${num(s.err.ellipticity, 3)}`],
+    ['Ellipticity (this star)', `${num(s.ellipticity, 3)} ± ${num(s.err.ellipticity, 3)}`],
     ['Long axis', `${num(s.thetaDeg, 1)}°`],
     ['HFD', `${num(s.hfdPx)} px`],
     ['SNR', num(s.snr, 0)],

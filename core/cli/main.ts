@@ -5,6 +5,7 @@ import { startPool } from '../kernels.ts';
 import { reportFromAnalysis } from '../report/from-analysis.ts';
 import { starsCsv } from '../report/csv.ts';
 import { reportHtml } from '../report/html.ts';
+import { framePictures } from '../report/pictures.ts';
 import { writeFileAtomic } from '../report/save.ts';
 import { SkyloupeError, exitCodeFor, usage } from '../errors.ts';
 import { parse, positiveNumber } from './args.ts';
@@ -172,8 +173,9 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
   // the worker threads start while the frame is read
   const pool = await startPool(workers);
   let analysis: Analysis;
+  let frame: Frame;
   try {
-    const frame = await readFrame(framePath);
+    frame = await readFrame(framePath);
     analysis = await analyzeFrame(frame, { user, cfa, threshold, pool, solve: !values['no-sky'], sky: { catalogue, catalogueFile } });
   } finally {
     void pool.close();
@@ -189,7 +191,11 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
     if (values.csv === '-') process.stdout.write(starsCsv(report));
     else await writeFileAtomic(values.csv, starsCsv(report));
   }
-  if (typeof values.html === 'string') await writeFileAtomic(values.html, reportHtml(report, { name: path.basename(framePath) }));
+  if (typeof values.html === 'string') {
+    // the same pictures as the desktop program: the stretched sky and the close-ups
+    const pictures = await framePictures({ data: frame.data, width: frame.width, height: frame.height, flipY: frame.displayTopRow === 'last', sky: analysis.sky });
+    await writeFileAtomic(values.html, reportHtml(report, { name: path.basename(framePath), ...pictures }));
+  }
   if (!values.quiet && values.json !== '-' && values.csv !== '-') out(formatSummary(report));
   return 0;
 }

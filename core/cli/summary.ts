@@ -2,13 +2,13 @@ import type { Report, ZoneSummary } from '../report/types.ts';
 import { formatFindings } from '../diagnose/format.ts';
 import { saturationText } from '../frame/saturation.ts';
 import { skySummaryLines } from '../sky/words.ts';
+import { formatQuantity, quantityPhrase } from '../report/words.ts';
 
-const f = (v: number | null, digits = 2) => (v === null ? 'n/a' : v.toFixed(digits));
 
 function zoneLine(z: ZoneSummary, plate: boolean): string {
   if (z.stars === 0) return 'no stars';
-  const arc = plate && z.medianFwhmArcsec !== null ? ` (${f(z.medianFwhmArcsec)}")` : '';
-  return `${z.stars} stars, FWHM ${f(z.medianFwhmPx)} px${arc}, HFD ${f(z.medianHfdPx)} px, ellipticity ${f(z.medianEllipticity, 3)}`;
+  const arc = plate && z.medianFwhmArcsec !== null ? ` (${formatQuantity('medianFwhmArcsec', z.medianFwhmArcsec)}")` : '';
+  return `${z.stars} stars, FWHM ${formatQuantity('medianFwhmPx', z.medianFwhmPx)} px${arc}, HFD ${formatQuantity('medianHfdPx', z.medianHfdPx)} px, ${quantityPhrase('medianEllipticity', z.medianEllipticity)}, ${quantityPhrase('sharedEllipticity', z.sharedEllipticity)}`;
 }
 
 /** The short human summary printed by `skyloupe analyze`. */
@@ -16,11 +16,11 @@ export function formatSummary(r: Report): string {
   const o = r.frame.optics;
   const plate = o.plateScaleArcsecPerPx !== null;
   const lines: string[] = [];
-  lines.push(`${r.frame.path}: ${r.frame.width} x ${r.frame.height} ${r.frame.format}${r.frame.cfa ? ` (${r.frame.cfa} mosaic, measured on 2x2 superpixels)` : ''}`);
+  lines.push(`${r.frame.path}: ${r.frame.width} × ${r.frame.height} ${r.frame.format}${r.frame.cfa ? ` (${r.frame.cfa} mosaic, measured on 2 × 2 superpixels)` : ''}`);
   const opt = [
     o.focalLengthMm !== null ? `${o.focalLengthMm} mm` : 'focal length unknown',
     o.fNumber !== null ? `f/${o.fNumber}` : 'f-number unknown',
-    o.pixelSizeUm !== null ? `${o.pixelSizeUm} um pixels` : 'pixel size unknown',
+    o.pixelSizeUm !== null ? `${o.pixelSizeUm} µm pixels` : 'pixel size unknown',
   ];
   const cards = o.source.keywords ? [o.source.keywords.focalLengthMm, o.source.keywords.fNumber, o.source.keywords.pixelSizeUm].filter((k) => k) : [];
   lines.push(`optics: ${opt.join(', ')}${plate ? `, ${o.plateScaleArcsecPerPx!.toFixed(3)}"/px` : ''}${cards.length ? ` (from ${cards.join(', ')})` : ''}`);
@@ -32,8 +32,8 @@ export function formatSummary(r: Report): string {
   const region = r.frame.dataRegion;
   if (region && region.kind !== 'full') lines.push(`sky: ${region.note}${d.outsideData ? `; ${d.outsideData} detections outside it dropped` : ''}`);
   const s = r.summary;
-  const arc = plate && s.medianFwhmArcsec !== null ? ` = ${f(s.medianFwhmArcsec)}"` : '';
-  lines.push(`median FWHM ${f(s.medianFwhmPx)} px${arc}, HFD ${f(s.medianHfdPx)} px, ellipticity ${f(s.medianEllipticity, 3)}`);
+  const arc = plate && s.medianFwhmArcsec !== null ? ` = ${formatQuantity('medianFwhmArcsec', s.medianFwhmArcsec)}"` : '';
+  lines.push(`median FWHM ${formatQuantity('medianFwhmPx', s.medianFwhmPx)} px${arc}, HFD ${formatQuantity('medianHfdPx', s.medianHfdPx)} px, ${quantityPhrase('medianEllipticity', s.medianEllipticity)}`);
   lines.push(`centre:  ${zoneLine(s.center, plate)}`);
   lines.push(`corners: ${zoneLine(s.corners, plate)}`);
   if (s.center.medianFwhmPx && s.corners.medianFwhmPx) {

@@ -116,7 +116,7 @@ export async function throughFocusCommand(argv: string[], out: (s: string) => vo
     if (!p) throw usage('through-focus: --adjuster-radius needs the pixel size (give --pixel-size)');
     const r = (radiusMm * 1000) / p;
     const cx = (a0.frame.width - 1) / 2, cy = (a0.frame.height - 1) / 2;
-    adjusters = angles.map((d) => ({ name: `adjuster at ${d} deg`, xPx: cx + r * Math.cos((d * Math.PI) / 180), yPx: cy + r * Math.sin((d * Math.PI) / 180) }));
+    adjusters = angles.map((d) => ({ name: `adjuster at ${d}°`, xPx: cx + r * Math.cos((d * Math.PI) / 180), yPx: cy + r * Math.sin((d * Math.PI) / 180) }));
   }
   const r: ThroughFocusResult = runThroughFocus(items.map((it, k) => ({
     positionUm: it.positionUm, analysis: analyses[k], label: it.file, identity: ids[k], profiles: extras[k].profiles, stamps: extras[k].stamps,

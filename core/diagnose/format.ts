@@ -1,5 +1,6 @@
 /** The findings as text for the human summary of analyze: one block per finding, wrapped. */
 import type { Finding } from './types.ts';
+import { SEVERITY_WORDS, bySeverity, severityWord } from '../report/words.ts';
 
 function wrap(text: string, width: number, indent: string): string {
   const words = text.split(/\s+/).filter(Boolean);
@@ -15,11 +16,13 @@ function wrap(text: string, width: number, indent: string): string {
   return lines.map((l, i) => (i === 0 ? l : indent + l)).join('\n');
 }
 
-const TAG = { major: 'MAJOR', minor: 'minor', info: 'info ' } as const;
+const TAG_WIDTH = Math.max(...Object.values(SEVERITY_WORDS).map((w) => w.length));
 
+/** The findings under the severity scale's words ("Act on it", "Worth a look", "Note"), most urgent first. */
 export function formatFindings(findings: readonly { severity: Finding['severity']; message: string }[], width = 92): string {
   if (findings.length === 0) return 'Findings: none';
   const lines = ['Findings:'];
-  for (const f of findings) lines.push(`  ${TAG[f.severity] ?? f.severity}  ${wrap(f.message, width - 9, '         ')}`);
+  const indent = ' '.repeat(2 + TAG_WIDTH + 2);
+  for (const f of bySeverity(findings)) lines.push(`  ${severityWord(f.severity).padEnd(TAG_WIDTH)}  ${wrap(f.message, width - indent.length, indent)}`);
   return lines.join('\n');
 }

@@ -242,7 +242,7 @@ export function diagnoseTilt(fa: FieldAnalysis, u: Units, model: DefocusModel | 
   const altBig = alts.filter((a) => Math.hypot(a.x - aq.x, a.y - aq.y) > 0.3 * Math.max(1e-9, Math.hypot(aq.x, aq.y), Math.hypot(a.x, a.y)));
   if (altBig.length) {
     const a = altBig[0];
-    const words = sK ? `${(Math.hypot(a.x, a.y) / sK).toFixed(0)} um` : `${(Math.hypot(a.x, a.y) * u.blurPerQ).toFixed(1)} px of blur`;
+    const words = sK ? `${(Math.hypot(a.x, a.y) / sK).toFixed(0)} µm` : `${(Math.hypot(a.x, a.y) * u.blurPerQ).toFixed(1)} px of blur`;
     note = [note, `the frame also fits a different focus surface almost as well (${words} across the frame, e.g. a tilt instead of curvature with a defocused centre); a focus pair settles it`].filter(Boolean).join('; ');
   }
   return {

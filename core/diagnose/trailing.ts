@@ -117,7 +117,7 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
         lengthPx: L, lengthErrPx: Lerr, elongation: cMag / Tmed,
         rotation: null, significance: rSig, zoneSignificance: zones?.uniformElongation ?? null, pixelShape: shape,
         note: ['a single elongation direction across the whole frame; if it turns by 90 degrees when you defocus slightly, it is astigmatism on the axis (pinched or misaligned optics) instead',
-          shape ? `beyond the ${shape.axisRatio.toFixed(2)}:1 stretch along ${shape.angleDeg.toFixed(0)} deg that the pixels' shape on the sky explains (${shape.source})` : null].filter(Boolean).join('; '),
+          shape ? `beyond the ${shape.axisRatio.toFixed(2)}:1 stretch along ${shape.angleDeg.toFixed(0)}° that the pixels' shape on the sky explains (${shape.source})` : null].filter(Boolean).join('; '),
       },
       // A trail adds only to its own axis: T - |M| keeps the core (a no-op for a strictly uniform trail).
       sizeCorrection: rotationSizeCorrection(fa, { x: g.cx, y: g.cy }),
@@ -125,7 +125,7 @@ export function diagnoseTrailing(fa: FieldAnalysis, zones: SpinZoneChecks | null
     };
   }
   const note = short ?? (shape?.explains
-    ? `every star is stretched about ${shape.axisRatio.toFixed(2)}:1 along ${shape.angleDeg.toFixed(0)} deg, as ${shape.source} says the pixels are on the sky (unequal pixel scales): the detector's geometry, not trailing`
+    ? `every star is stretched about ${shape.axisRatio.toFixed(2)}:1 along ${shape.angleDeg.toFixed(0)}°, as ${shape.source} says the pixels are on the sky (unequal pixel scales): the detector's geometry, not trailing`
     : s2.cSignificance >= UNIFORM_SIGMA && c0Mag / Tmed >= UNIFORM_MIN_E && cSig < UNIFORM_SIGMA
       ? `the stars show a uniform elongation (${s2.cSignificance.toFixed(1)} sigma) that the zone medians do not confirm (${cSig.toFixed(1)} sigma): a few stars, not the frame`
       : null);

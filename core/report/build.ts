@@ -6,6 +6,7 @@ import { VERSION } from '../version.ts';
 import { sectionModel } from '../sky/section.ts';
 import { pixelToSky } from '../sky/lens.ts';
 import { vecToRadec } from '../sky/sphere.ts';
+import { sharedEllipticity } from './shared-ellipticity.ts';
 
 const r4 = (v: number) => (Number.isFinite(v) ? Math.round(v * 1e4) / 1e4 : null);
 
@@ -30,7 +31,7 @@ export function radialZone(s: { x: number; y: number }, width: number, height: n
   return r <= 0.25 ? 'center' : r >= 0.75 ? 'corners' : 'middle';
 }
 
-function zoneSummary(zone: 'center' | 'corners', stars: Star[], plate: number | null): ZoneSummary {
+function zoneSummary(zone: 'center' | 'corners', stars: Star[], plate: number | null, about: { x: number; y: number }): ZoneSummary {
   const fwhm = med(stars.map((s) => s.fwhmPx));
   let e1 = 0;
   let e2 = 0;
@@ -47,6 +48,7 @@ function zoneSummary(zone: 'center' | 'corners', stars: Star[], plate: number | 
     medianHfdPx: r4n(med(stars.map((s) => s.hfdPx))),
     meanShapeE: n ? r4(Math.hypot(e1, e2) / n) : null,
     medianEllipticity: r4n(med(stars.map((s) => s.ellipticity))),
+    sharedEllipticity: r4n(sharedEllipticity(stars.map((s) => ({ x: s.x, y: s.y, e1: s.moments.e1, e2: s.moments.e2 })), zone === 'corners' ? about : null)),
   };
 }
 
@@ -76,6 +78,8 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
   const center = good.filter((s) => radialZone(s, width, height, circle) === 'center');
   const corners = good.filter((s) => radialZone(s, width, height, circle) === 'corners');
   const fwhm = med(good.map((s) => s.fwhmPx));
+  // the point the radial zones are taken about (the frame or image-circle centre)
+  const about = circle ? { x: circle.xPx, y: circle.yPx } : { x: (width - 1) / 2, y: (height - 1) / 2 };
   return {
     schema: REPORT_SCHEMA,
     tool: { name: 'skyloupe', version: VERSION },
@@ -113,8 +117,8 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
       medianFwhmArcsec: fwhm !== null && plate !== null ? r4(fwhm * plate) : null,
       medianHfdPx: r4n(med(good.map((s) => s.hfdPx))),
       medianEllipticity: r4n(med(good.map((s) => s.ellipticity))),
-      center: zoneSummary('center', center, plate),
-      corners: zoneSummary('corners', corners, plate),
+      center: zoneSummary('center', center, plate, about),
+      corners: zoneSummary('corners', corners, plate, about),
     },
     stars: withSky(a.stars.map(reportStar), a),
     ...extra,

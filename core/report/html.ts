@@ -13,16 +13,19 @@ import { sizeSvg } from './svg/size.ts';
 import { focusSvg } from './svg/focus.ts';
 import { cornersSvg } from './svg/corners.ts';
 import { findingsHtml, summaryHtml } from './svg/panels.ts';
+import { QUANTITIES, findingsCountWords } from './words.ts';
 import { astrometryTableHtml, distortionFigureData, distortionSvg } from './svg/distortion.ts';
 
 export interface HtmlReportOptions {
   /** Display name of the frame (default: the report's path). */
   name?: string;
-  /** The stretched frame and the corner crops, when the caller has them (the desktop program does). */
+  /** The stretched frame and the corner crops (core/report/pictures.ts; the CLI and the desktop program both make them). */
   preview?: Preview | null;
   tiles?: Tile[] | null;
   theme?: Theme;
 }
+
+const cap = (t: string) => t[0].toUpperCase() + t.slice(1);
 
 const CSS = `
 :root { color-scheme: light; }
@@ -37,6 +40,8 @@ ol.findings { padding-left: 20px; } .finding { margin: 0 0 12px; break-inside: a
 .finding .severity { font-weight: 700; } .severity-major .severity { color: #c92a2a; } .severity-minor .severity { color: #b35c00; } .severity-info .severity { color: #1c5d99; }
 .finding-message { margin: 2px 0 4px; } .finding-numbers th, .finding-numbers td { font-size: 12px; padding: 1px 10px 1px 0; }
 code { font-size: 12px; color: #505a66; }
+nav.toc h2 { font-size: 15px; border: 0; margin: 16px 0 4px; } nav.toc ol { margin: 0; padding-left: 20px; columns: 2; } nav.toc a { color: #1c5d99; }
+@media print { nav.toc { display: none; } }
 @media print { body { margin: 0; max-width: none; } h2 { break-after: avoid; } }
 `;
 
@@ -45,28 +50,36 @@ function jsonBlock(report: Report): string {
   return `<script type="application/json" id="skyloupe-report">${JSON.stringify(report).replace(/</g, '\\u003c')}</script>`;
 }
 
+/** One section of the report: its anchor, its heading (also the table of contents' entry) and its body. */
+interface Section { id: string; title: string; body: string }
+
 export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string {
   const theme = opts.theme ?? PRINT;
   const name = opts.name ?? report.frame.path;
   const fig = (svg: string, caption: string) => `<figure>${svg}<figcaption>${esc(caption)}</figcaption></figure>`;
+  const sections: Section[] = [];
+  const add = (id: string, title: string, body: string) => sections.push({ id, title, body });
+  add('summary', 'Summary', summaryHtml(report));
+  add('findings', 'Findings', `<p class="findings-count">${esc(cap(findingsCountWords(report.findings)))}</p>` + findingsHtml(report.findings));
+  add('sky', 'Sky', fig(skySvg(report, { theme, preview: opts.preview ?? null, width: 900 }),
+    `${opts.preview ? 'The frame, stretched, with e' : 'No picture of the frame was given to this report. E'}very measured star marked (clean stars solid, flagged stars dashed); ${report.frame.display.note}.`));
+  add('shape', 'Shape map', fig(shapeSvg(report, { theme, width: 900 }), 'A line per zone: its length grows with the elongation a/b, its direction is the long axis of the stars there.'));
+  add('size', 'Size maps', fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
+    + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
+    + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), `${cap(QUANTITIES.sharedEllipticity.label)} 1 − b/a over the field, with contours: the elongation the stars of each part of the frame have in common (their e1, e2 averaged as vectors, so each star's noise averages out).`));
+  add('focus', 'Focus plane', fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
+  if (report.astrometry) {
+    const dd = distortionFigureData(report);
+    add('lens', 'Sky position and lens geometry', astrometryTableHtml(report)
+      + (dd ? fig(distortionSvg(dd, { theme, width: 900 }), `A square grid as the lens draws it (blue) over the ideal grid (grey), and the measured shift of each matched star from where a distortion-free lens would put it; all shifts drawn ${dd.exaggeration}× larger. The ring marks the optical centre.`) : ''));
+  }
+  add('corners', 'Corners', fig(cornersSvg(report, opts.tiles ?? null, { theme, width: 900 }), `The four corners and the centre at one zoom, full resolution; ellipses are twice the fitted FWHM; beneath each, the ${QUANTITIES.medianEllipticity.label} of the stars in it.`));
+  const toc = '<nav class="toc" aria-label="Contents"><h2>Contents</h2><ol>' + sections.map((x) => `<li><a href="#${x.id}">${x.title}</a></li>`).join('') + '</ol></nav>';
   const parts: string[] = [];
   parts.push(`<h1>Star shapes across the field: ${esc(name)}</h1>`);
   parts.push(`<p class="meta">skyloupe ${esc(report.tool.version)} · report ${esc(report.schema)} · made ${esc(report.createdAt)}</p>`);
-  parts.push('<h2>Summary</h2>' + summaryHtml(report));
-  parts.push('<h2>Findings</h2>' + findingsHtml(report.findings));
-  parts.push('<h2>Sky</h2>' + fig(skySvg(report, { theme, preview: opts.preview ?? null, width: 900 }), `Every measured star marked (clean stars solid, flagged stars dashed); ${report.frame.display.note}.`));
-  parts.push('<h2>Shape map</h2>' + fig(shapeSvg(report, { theme, width: 900 }), 'A line per zone: its length grows with the elongation a/b, its direction is the long axis of the stars there.'));
-  parts.push('<h2>Size maps</h2>'
-    + fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
-    + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
-    + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), 'Ellipticity 1 − b/a from the moment field, with contours.'));
-  parts.push('<h2>Focus plane</h2>' + fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
-  if (report.astrometry) {
-    const dd = distortionFigureData(report);
-    parts.push('<h2>Sky position and lens geometry</h2>' + astrometryTableHtml(report)
-      + (dd ? fig(distortionSvg(dd, { theme, width: 900 }), `A square grid as the lens draws it (blue) over the ideal grid (grey), and the measured shift of each matched star from where a distortion-free lens would put it; all shifts drawn ${dd.exaggeration}x larger. The ring marks the optical centre.`) : ''));
-  }
-  parts.push('<h2>Corners</h2>' + fig(cornersSvg(report, opts.tiles ?? null, { theme, width: 900 }), 'The four corners and the centre at one zoom; ellipses are twice the fitted FWHM.'));
+  parts.push(toc);
+  for (const x of sections) parts.push(`<section id="${x.id}"><h2>${x.title}</h2>${x.body}</section>`);
   return `<!doctype html>
 <html lang="en">
 <head>

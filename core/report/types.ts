@@ -31,7 +31,14 @@ export interface ZoneSummary {
   medianHfdPx: number | null;
   /** Modulus of the vector-averaged distortion (e1, e2), optics.md section 1.6: never the mean of |e|. */
   meanShapeE: number | null;
+  /** "Typical star ellipticity": the median 1 - b/a of the zone's single clean stars (core/report/words.ts). */
   medianEllipticity: number | null;
+  /**
+   * "Shared ellipticity": 1 - b/a of the zone's mean distortion vector (the corners: each
+   * quadrant on its own, averaged by stars), core/report/shared-ellipticity.ts. Added; meanShapeE
+   * (the same average as a distortion, all corners together) is kept for scripts.
+   */
+  sharedEllipticity: number | null;
 }
 
 /** The report, schema skyloupe.report/1 (DESIGN.md). Fields may be added, never renamed. */

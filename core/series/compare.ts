@@ -7,6 +7,7 @@
  */
 import { starColumns } from '../field/quantities.ts';
 import { clippedMean, medianWithErr } from '../field/stats.ts';
+import { ellipticityFromDistortion } from '../report/shared-ellipticity.ts';
 import type { Finding } from '../diagnose/types.ts';
 import { fmt } from '../diagnose/words.ts';
 import { checkFrame, checkSameSetup, fromAnalysis, type AnalysisLike, type FrameIdentity, type FrameInput } from './input.ts';
@@ -20,6 +21,8 @@ export interface ZoneValue {
   fwhmErr: number | null;
   /** Mean modulus of the per-cell vector-averaged distortion e over the zone's cells. */
   elongation: number | null;
+  /** The same per cell as an ellipticity 1 - b/a, averaged over the cells: the shared ellipticity (core/report/words.ts). */
+  sharedEllipticity: number | null;
 }
 
 export interface ZoneVerdict {
@@ -76,6 +79,7 @@ function zoneValues(f: FrameInput, scale: number): Record<ZoneName, ZoneValue> {
       fwhm: Number.isFinite(m.value) ? m.value : null,
       fwhmErr: Number.isFinite(m.err) ? m.err : null,
       elongation: el.length ? el.reduce((s, v) => s + v, 0) / el.length : null,
+      sharedEllipticity: el.length ? el.reduce((s, v) => s + ellipticityFromDistortion(v), 0) / el.length : null,
     };
   }
   return out;

@@ -1,2 +1,2 @@
-/** The severity words a person reads (the JSON keeps major / minor / info). */
-export const SEVERITY_WORDS: Record<'major' | 'minor' | 'info', string> = { major: 'Act on it', minor: 'Worth a look', info: 'Note' };
+/** The severity words a person reads (the JSON keeps major / minor / info): one table, core/report/words.ts. */
+export { SEVERITY_WORDS } from '../report/words.ts';

@@ -28,7 +28,7 @@ export function skyFindings(s: AstrometrySection | undefined): Finding[] {
   const d = s.distortion;
   const proj = s.projection && s.projection !== 'rectilinear' ? ` The lens draws the sky as ${PROJECTION_WORDS[s.projection]}; the numbers are the departure from that projection.` : '';
   if (d && d.pattern !== 'none') {
-    const err = d.cornerPercentErr !== null ? ` +- ${d.cornerPercentErr.toFixed(2)}` : '';
+    const err = d.cornerPercentErr !== null ? ` ± ${d.cornerPercentErr.toFixed(2)}` : '';
     const what = d.pattern === 'barrel'
       ? 'barrel (the image is squeezed toward the corners: straight lines near the edges bow outward)'
       : d.pattern === 'pincushion'
@@ -53,7 +53,7 @@ export function skyFindings(s: AstrometrySection | undefined): Finding[] {
     out.push({
       code: 'FOCAL_LENGTH',
       severity: Math.abs(c.differencePercent) >= 10 ? 'minor' : 'info',
-      message: `The stars put the focal length at ${s.focalLengthMm?.toFixed(1)} mm${s.focalLengthErrMm !== null ? ` (+- ${s.focalLengthErrMm.toFixed(2)})` : ''}, not the ${c.statedMm} mm the ${c.source === 'user' ? 'command line' : c.source === 'exif' ? 'camera metadata' : 'header'} states (${f(c.differencePercent, 1)} %): arcseconds in this report use the measured value. Check the lens or the capture program's setting (zoom lenses and focal reducers often differ from their marking).`,
+      message: `The stars put the focal length at ${s.focalLengthMm?.toFixed(1)} mm${s.focalLengthErrMm !== null ? ` (± ${s.focalLengthErrMm.toFixed(2)})` : ''}, not the ${c.statedMm} mm the ${c.source === 'user' ? 'command line' : c.source === 'exif' ? 'camera metadata' : 'header'} states (${f(c.differencePercent, 1)} %): arcseconds in this report use the measured value. Check the lens or the capture program's setting (zoom lenses and focal reducers often differ from their marking).`,
       numbers: { measuredMm: s.focalLengthMm, statedMm: c.statedMm, differencePercent: c.differencePercent },
     });
   }

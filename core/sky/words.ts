@@ -1,5 +1,5 @@
 /** The plate solution as short lines for the CLI summary and the HTML table (one wording for both). */
-import type { AstrometrySection } from './section.ts';
+import type { AstrometrySection } from './section-types.ts';
 
 /** RA as h m s and Dec as d m s (sexagesimal, the usual way to write them). */
 export function sexagesimal(raDeg: number, decDeg: number): string {
@@ -42,7 +42,7 @@ export function skySummaryLines(s: AstrometrySection): string[] {
   const d = s.distortion;
   if (d) {
     const pat = d.pattern === 'none' ? 'no significant distortion' : d.pattern;
-    lines.push(`lens: ${pat}, ${sgn(d.cornerPercent)} %${d.cornerPercentErr !== null ? ` +- ${d.cornerPercentErr.toFixed(2)}` : ''} at the corners (${sgn(d.edgePercent.x)} % / ${sgn(d.edgePercent.y)} % at the side / top edges), largest shift ${d.maxShiftPx.toFixed(1)} px`);
+    lines.push(`lens: ${pat}, ${sgn(d.cornerPercent)} %${d.cornerPercentErr !== null ? ` ± ${d.cornerPercentErr.toFixed(2)}` : ''} at the corners (${sgn(d.edgePercent.x)} % / ${sgn(d.edgePercent.y)} % at the side / top edges), largest shift ${d.maxShiftPx.toFixed(1)} px`);
   }
   for (const n of s.notes.filter((n) => n.startsWith('the stars put') || n.startsWith('focal length measured') || n.startsWith('sky scale'))) lines.push(`note: ${n}`);
   return lines;

@@ -6,6 +6,7 @@ import type { Report, ReportStar } from '../types.ts';
 import type { Tile, TileName } from './types.ts';
 import type { Theme } from './theme.ts';
 import { RED_FILTER } from './sky.ts';
+import { formatQuantity, quantityPhrase } from '../words.ts';
 import { medianOf } from '../../image/stats.ts';
 import { emptyFigure, esc, num, r2, svgOpen, text } from './util.ts';
 
@@ -42,7 +43,7 @@ export function cornersSvg(report: Report, tiles: Tile[] | null | undefined, opt
   const width = opts.width ?? 900;
   if (!tiles || tiles.length === 0) return emptyFigure(width, 300, 'Corners', 'no close-ups for this frame', theme);
   const gap = 14;
-  const labelH = 34;
+  const labelH = 48;
   const S = Math.max(...tiles.map((t) => t.w));
   const head = 28;
   let cell = Math.floor((width - 4 * gap) / 3);
@@ -78,7 +79,8 @@ export function cornersSvg(report: Report, tiles: Tile[] | null | undefined, opt
     out += '</g>';
     out += `<rect x="${r2(X)}" y="${r2(Y)}" width="${r2(w)}" height="${r2(h)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
     out += text(X, Y + h + 15, LABEL[t.name], theme, { size: 12, weight: '600' });
-    out += text(X, Y + h + 30, `FWHM ${num(st.medianFwhmPx, 2)} px · ellipticity ${num(st.medianEllipticity, 2)} · ${st.stars} stars`, theme, { size: 11, fill: theme.muted, cls: 'tile-numbers' });
+    out += text(X, Y + h + 30, `${st.stars} star${st.stars === 1 ? '' : 's'} · FWHM ${formatQuantity('medianFwhmPx', st.medianFwhmPx)} px`, theme, { size: 11, fill: theme.muted, cls: 'tile-numbers' });
+    out += text(X, Y + h + 44, quantityPhrase('medianEllipticity', st.medianEllipticity), theme, { size: 11, fill: theme.muted, cls: 'tile-numbers' });
     out += '</g>';
   }
   return out + '</svg>';

@@ -9,6 +9,7 @@
 import type { Report } from '../types.ts';
 import type { Theme } from './theme.ts';
 import { emptyFigure, esc, r2, svgOpen, text, TITLE_H } from './util.ts';
+import { projectionWords } from '../../sky/words.ts';
 
 export interface DistortionFigureData {
   /** Frame size, px, and which stored row is shown at the top. */
@@ -150,7 +151,7 @@ export function astrometryTableHtml(report: Report): string {
   rows.push(['North', `${n(a.rotationDeg, 1)}° from +x toward +y; ${esc(a.parity ?? '–')} parity`]);
   rows.push(['Sky scale', `${pm(a.scaleArcsecPerPx, a.scaleErrArcsecPerPx, 4)} ″/px at the optical centre`]);
   rows.push(['Focal length', a.focalLengthMm !== null ? `${pm(a.focalLengthMm, a.focalLengthErrMm, 2)} mm (measured)` : 'needs the pixel size']);
-  rows.push(['Projection', esc(a.projection ?? '–')]);
+  rows.push(['Projection', esc(a.projection ? projectionWords(a.projection) : '–')]);
   const d = a.distortion;
   if (d) {
     rows.push(['Distortion', `${esc(d.pattern)}: ${pm(d.cornerPercent, d.cornerPercentErr, 3)} % at the corners, ${n(d.edgePercent.x, 3)} % / ${n(d.edgePercent.y, 3)} % at the side / top edges, largest shift ${n(d.maxShiftPx, 1)} px`]);

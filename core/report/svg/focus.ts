@@ -2,6 +2,7 @@
  * The focus plane: the fitted linear part of the focus error over the sensor outline (shaded,
  * with lines of equal focus), the tilt axis, and the focus error found at each corner.
  */
+import { faultVerdict } from '../words.ts';
 import { scaleLinear } from 'd3-scale';
 import type { Report } from '../types.ts';
 import type { TiltDiagnosis } from '../../diagnose/types.ts';
@@ -51,7 +52,7 @@ export function focusSvg(report: Report, opts: FocusOptions): string {
   const Yb = m.y(H - 0.5);
   const top0 = Math.min(Ya, Yb);
   let out = svgOpen(width, height, label, theme, 'focus-svg');
-  out = out.replace('<svg ', `<svg data-significant="${t.significant}" data-sign-resolved="${t.signResolved}" `);
+  out = out.replace('<svg ', `<svg data-significant="${t.significant}" data-severity="${faultVerdict(report.findings, 'TILT').severity ?? 'none'}" data-sign-resolved="${t.signResolved}" `);
   out += text(10, 22, label, theme, { size: 14, weight: '600' });
   out += `<defs><clipPath id="focus-clip"><rect x="${r2(X0)}" y="${r2(top0)}" width="${r2(X1 - X0)}" height="${r2(plotH)}"/></clipPath>`;
   let planeLo = 0;
@@ -133,11 +134,13 @@ export function focusSvg(report: Report, opts: FocusOptions): string {
   const line = (s: string, fill = theme.fg, size = 12) => {
     for (const l of wrapWords(s, sideChars(size))) { out += text(nx, ny, l, theme, { size, fill, cls: 'focus-note' }); ny += size + 6; }
   };
-  line(t.significant ? 'Tilt: significant' : 'Tilt: not significant', t.significant ? theme.bad : theme.good, 13);
+  // the verdict on the findings' scale: the TILT finding's severity, or "within the noise"
+  const v = faultVerdict(report.findings, 'TILT');
+  line(`Tilt: ${v.words}`, v.severity === 'major' ? theme.bad : v.severity === 'minor' ? theme.selected : v.severity ? theme.vector : theme.good, 13);
   if (t.tiltMrad !== null) line(`${pm(t.tiltMrad, t.tiltErrMrad, 2)} mrad`);
   line(`across width ${pm(across.x, acrossErr.x, 1)} ${unit}`);
   line(`across height ${pm(across.y, acrossErr.y, 1)} ${unit}`);
-  line(`significance ${num(t.significance, 1)} σ`, theme.muted, 11);
+  line(`certainty ${num(t.significance, 1)} σ`, theme.muted, 11);
   line(`${t.starsUsed} stars`, theme.muted, 11);
   if (!t.signResolved) {
     line('One frame gives sizes only: which side is nearer is open.', theme.muted, 11);

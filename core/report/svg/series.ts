@@ -1,4 +1,5 @@
 /** Figures for several frames: the compare table and the spacer sweep (metric against spacer distance). */
+import { QUANTITIES, formatQuantity } from '../words.ts';
 import { scaleLinear } from 'd3-scale';
 import { line } from 'd3-shape';
 import type { CompareResult, SweepResult } from './types.ts';
@@ -11,7 +12,7 @@ const ZONE_LABEL: Record<string, string> = { center: 'Centre', edges: 'Edges', c
 
 export function compareTableHtml(c: CompareResult): string {
   const u = c.unit === 'arcsec' ? '″' : ' px';
-  const cell = (z: CompareResult['zones'][number]['a']) => `<span class="fwhm">${pm(z.fwhm, z.fwhmErr, 2)}${u}</span> · |e| ${num(z.e, 3)} · ${z.stars} stars`;
+  const cell = (z: CompareResult['zones'][number]['a']) => `<span class="fwhm">${pm(z.fwhm, z.fwhmErr, 2)}${u}</span> · ${QUANTITIES.sharedEllipticity.label} ${formatQuantity('sharedEllipticity', z.e)} · ${z.stars} stars`;
   const rows = c.zones.map((z) => `<tr data-zone="${esc(z.zone)}" data-better="${esc(z.better)}"><th scope="row">${esc(ZONE_LABEL[z.zone] ?? z.zone)}</th>`
     + `<td>${cell(z.a)}</td><td>${cell(z.b)}</td>`
     + `<td>${z.differencePct === null ? '–' : `${z.differencePct > 0 ? '+' : ''}${pm(z.differencePct, z.differenceErrPct, 1)} %`}</td>`

@@ -6,6 +6,7 @@ import { contours } from 'd3-contour';
 import { scaleLinear } from 'd3-scale';
 import type { Report } from '../types.ts';
 import { evalSurface } from '../../field/surface.ts';
+import { ellipticityFromDistortion } from '../shared-ellipticity.ts';
 import type { Surface } from '../../field/types.ts';
 import type { Theme } from './theme.ts';
 import { colorKey, emptyFigure, fieldOf, frameBesideKey, num, r2, svgOpen, text, TITLE_H, type FrameMap } from './util.ts';
@@ -16,8 +17,11 @@ export type SizeQuantity = 'fwhmPx' | 'fwhmArcsec' | 'ellipticity';
 export const QUANTITY_LABEL: Record<SizeQuantity, string> = {
   fwhmPx: 'FWHM (px)',
   fwhmArcsec: 'FWHM (arcsec)',
-  ellipticity: 'Ellipticity 1 − b/a',
+  ellipticity: 'Shared ellipticity 1 − b/a',
 };
+
+/** The colour key's title (narrower than the figure's). */
+const KEY_LABEL: Record<SizeQuantity, string> = { fwhmPx: 'FWHM (px)', fwhmArcsec: 'FWHM (arcsec)', ellipticity: '1 − b/a (shared)' };
 
 /**
  * Values on a regular grid over the frame: cell (q, r) covers frame columns
@@ -47,11 +51,7 @@ function padByEdges(v: Float64Array, cols: number, rows: number): Float64Array {
   return out;
 }
 
-/** Ellipticity 1 - b/a from the distortion |e| (optics.md 1.3: (b/a)^2 = (1 - e)/(1 + e)). */
-export function ellipticityFromDistortion(e: number): number {
-  const c = Math.min(Math.abs(e), 0.999);
-  return 1 - Math.sqrt((1 - c) / (1 + c));
-}
+export { ellipticityFromDistortion } from '../shared-ellipticity.ts';
 
 /** Why a quantity cannot be mapped, or null when it can. */
 export function heatUnavailable(report: Report, q: SizeQuantity): string | null {
@@ -200,9 +200,9 @@ export function sizeSvg(report: Report, opts: SizeOptions): string {
   out += '</g>' + labels;
   out += `<rect x="${r2(m.ox)}" y="${top}" width="${r2(plotW)}" height="${r2(plotH)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
   out += scaleBar(m.ox + 4, top + plotH + 24, { unitsPerPx: m.s, maxUnits: plotW * 0.3, plateScale: report.frame.optics.plateScaleArcsecPerPx, u: 1 }, theme);
-  out += colorKey(width - keyW + 10, top + 24, keyH, lo, hi, QUANTITY_LABEL[quantity], theme, `${id}-key`);
+  out += colorKey(width - keyW + 10, top + 24, keyH, lo, hi, KEY_LABEL[quantity], theme, `${id}-key`);
   const ky = top + keyH + 46;
-  out += text(width - keyW + 10, ky, g.source === 'surface' ? 'smooth fit' : 'zone medians', theme, { size: 10, fill: theme.muted });
+  out += text(width - keyW + 10, ky, g.source === 'surface' ? 'smooth fit' : quantity === 'ellipticity' ? 'zone vector means' : 'zone medians', theme, { size: 10, fill: theme.muted });
   out += text(width - keyW + 10, ky + 14, `${num(range[0], 2)} – ${num(range[1], 2)}`, theme, { size: 10, fill: theme.muted, cls: 'heat-range' });
   return out + '</svg>';
 }

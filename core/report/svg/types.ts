@@ -32,7 +32,7 @@ export interface CompareCell {
   /** Median FWHM in the result's unit, with its 1-sigma error. */
   fwhm: number | null;
   fwhmErr: number | null;
-  /** Mean modulus of the vector-averaged distortion |e| over the zone's cells. */
+  /** Shared ellipticity: 1 - b/a of each cell's mean distortion vector, averaged over the zone's cells (core/report/words.ts). */
   e: number | null;
 }
 
