@@ -5,10 +5,10 @@
  * cloneable data; failures come back as values (an Error's fields do not survive IPC).
  */
 import type { Report, ReportStar } from '../../core/report/types.ts';
-import type { Preview, Tile, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
+import type { Preview, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
 import type { StampInput } from '../../core/report/svg/stamp.ts';
 
-export type { ImageRef, Preview, Tile, TileName, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
+export type { ImageRef, Preview, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
 
 export const BRIDGE_VERSION = 1;
 
@@ -49,7 +49,6 @@ export interface AnalysisResult {
   opticsMissing: OpticsField[];
   report: Report;
   preview: Preview;
-  tiles: Tile[];
   elapsedMs: number;
 }
 

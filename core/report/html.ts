@@ -4,23 +4,22 @@
  * No scripts, no outside resources.
  */
 import type { Report } from './types.ts';
-import type { Preview, Tile } from './svg/types.ts';
+import type { Preview } from './svg/types.ts';
 import { PRINT, type Theme } from './svg/theme.ts';
 import { esc } from './svg/util.ts';
 import { skySvg } from './svg/sky.ts';
 import { shapeSvg } from './svg/shape.ts';
 import { sizeSvg } from './svg/size.ts';
-import { focusSvg } from './svg/focus.ts';
-import { cornersSvg } from './svg/corners.ts';
+import { sensorSideSvg } from './svg/sensor-side.ts';
+import { zonePsfSvg } from './svg/zone-psf.ts';
 import { findingsHtml, summaryHtml } from './svg/panels.ts';
 import { astrometryTableHtml, distortionFigureData, distortionSvg } from './svg/distortion.ts';
 
 export interface HtmlReportOptions {
   /** Display name of the frame (default: the report's path). */
   name?: string;
-  /** The stretched frame and the corner crops, when the caller has them (the desktop program does). */
+  /** The stretched frame, when the caller has it (the desktop program does). */
   preview?: Preview | null;
-  tiles?: Tile[] | null;
   theme?: Theme;
 }
 
@@ -60,13 +59,13 @@ export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string
     + fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
     + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
     + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), 'Ellipticity 1 − b/a from the moment field, with contours.'));
-  parts.push('<h2>Focus plane</h2>' + fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
+  parts.push('<h2>Sensor edge-on</h2>' + fig(sensorSideSvg(report, { theme, width: 900 }), 'The sensor seen from the side in two cuts through the frame centre, along the tilt axis and across it, against best focus: each edge\'s focus offset in µm (drawn exaggerated, as stated).'));
   if (report.astrometry) {
     const dd = distortionFigureData(report);
     parts.push('<h2>Sky position and lens geometry</h2>' + astrometryTableHtml(report)
       + (dd ? fig(distortionSvg(dd, { theme, width: 900 }), `A square grid as the lens draws it (blue) over the ideal grid (grey), and the measured shift of each matched star from where a distortion-free lens would put it; all shifts drawn ${dd.exaggeration}x larger. The ring marks the optical centre.`) : ''));
   }
-  parts.push('<h2>Corners</h2>' + fig(cornersSvg(report, opts.tiles ?? null, { theme, width: 900 }), 'The four corners and the centre at one zoom; ellipses are twice the fitted FWHM.'));
+  parts.push('<h2>Stacked stars per zone</h2>' + fig(zonePsfSvg(report, { theme, width: 900 }), 'Each zone\'s clean stars aligned on their fitted centres (Lanczos-3) and averaged with a 3-sigma clip; FWHM, HFD and ellipticity measured on each stack.'));
   return `<!doctype html>
 <html lang="en">
 <head>

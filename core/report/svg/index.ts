@@ -5,8 +5,8 @@ export { esc, num, pm, fieldOf, diagnosisOf, frameMap, elongationFromDistortion,
 export { skySvg, markedStars } from './sky.ts';
 export { shapeSvg, shapeVectors } from './shape.ts';
 export { sizeSvg, heatGrid, heatUnavailable, ellipticityFromDistortion, finiteRange, QUANTITY_LABEL, type SizeQuantity } from './size.ts';
-export { focusSvg, planeGradient } from './focus.ts';
-export { cornersSvg, tileStats, starsInTile } from './corners.ts';
+export { sensorSideSvg, sensorSideData, sensorSideLayout, planeGradient, type SensorSideData, type SensorSection, type SectionEnd } from './sensor-side.ts';
+export { zonePsfSvg, zonePsfOf, zoneWords, displayedStack, PSF_CONTOURS } from './zone-psf.ts';
 export { stampSvg } from './stamp.ts';
 export { findingsHtml, findingsSvg, summaryHtml, numberLabel } from './panels.ts';
 export { compareTableHtml, sweepSvg } from './series.ts';
