@@ -2,7 +2,8 @@
 export * from './types.ts';
 export * from './theme.ts';
 export { esc, num, pm, fieldOf, diagnosisOf, frameMap, elongationFromDistortion, elongationFromEllipticity } from './util.ts';
-export { skySvg, markedStars } from './sky.ts';
+export { skySvg, markedStars, skyKey, skyKeyEntries, type SkyKeyEntry } from './sky.ts';
+export { scaleBar, roundLength, angleWords } from './scale-bar.ts';
 export { shapeSvg, shapeVectors } from './shape.ts';
 export { sizeSvg, heatGrid, heatUnavailable, ellipticityFromDistortion, finiteRange, QUANTITY_LABEL, type SizeQuantity } from './size.ts';
 export { sensorSideSvg, sensorSideData, sensorSideLayout, planeGradient, type SensorSideData, type SensorSection, type SectionEnd } from './sensor-side.ts';

@@ -2,7 +2,8 @@
 import type { Report } from '../types.ts';
 import type { Preview } from './types.ts';
 import type { Theme } from './theme.ts';
-import { esc, frameMap, r2, svgOpen } from './util.ts';
+import { esc, frameMap, r2, svgOpen, text } from './util.ts';
+import { scaleBar } from './scale-bar.ts';
 
 export interface SkyOptions {
   theme: Theme;
@@ -12,6 +13,42 @@ export interface SkyOptions {
   /** At most this many markers (clean stars first, by signal-to-noise). */
   maxMarkers?: number;
   selected?: number | null;
+  /** Zoom factor of the picture (the page's zoom; 1 = whole frame): the scale bar follows it. */
+  zoom?: number;
+}
+
+/** Height of the key strip under the frame, in screen px. */
+const KEY_PX = 30;
+
+/** One entry of the key under the sky: the mark as drawn, and its words. */
+export interface SkyKeyEntry { cls: string; label: string; mark: (x: number, y: number, u: number) => string }
+
+/** The marks the sky figure draws, for its key (extend this list with new marks). */
+export function skyKeyEntries(theme: Theme): SkyKeyEntry[] {
+  return [
+    { cls: 'star', label: 'star measured and used', mark: (x, y, u) => `<circle cx="${r2(x)}" cy="${r2(y)}" r="${r2(5 * u)}" fill="none" stroke="${theme.star}" stroke-width="${r2(1.2 * u)}"/>` },
+    { cls: 'flagged', label: 'set aside (flagged)', mark: (x, y, u) => `<circle cx="${r2(x)}" cy="${r2(y)}" r="${r2(4 * u)}" fill="none" stroke="${theme.flagged}" stroke-width="${r2(u)}" stroke-dasharray="${r2(3 * u)} ${r2(2 * u)}"/>` },
+    { cls: 'selected', label: 'selected star', mark: (x, y, u) => `<circle cx="${r2(x)}" cy="${r2(y)}" r="${r2(6 * u)}" fill="none" stroke="${theme.selected}" stroke-width="${r2(2.5 * u)}"/>` },
+  ];
+}
+
+/**
+ * The key strip under the frame: the marks with their words and a scale bar for zoom `k`.
+ * `u` is figure units per screen px. The page redraws it when the zoom changes.
+ */
+export function skyKey(report: Report, theme: Theme, u: number, k = 1): string {
+  const W = report.frame.width;
+  const H = report.frame.height;
+  const y = H + (KEY_PX / 2 + 4) * u;
+  let out = `<g class="sky-key" data-zoom="${r2(k)}">`;
+  let x = 8 * u;
+  for (const e of skyKeyEntries(theme)) {
+    out += `<g class="key-entry" data-mark="${e.cls}">${e.mark(x + 6 * u, y - 4 * u, u)}${text(x + 16 * u, y, e.label, theme, { size: r2(12 * u), fill: theme.fg })}</g>`;
+    x += (24 + 6.6 * e.label.length) * u;
+  }
+  const barX = Math.max(x + 12 * u, W * 0.55);
+  out += scaleBar(barX, y, { unitsPerPx: k, maxUnits: Math.min(W * 0.25, W - barX - 110 * u), plateScale: report.frame.optics.plateScaleArcsecPerPx, u }, theme);
+  return out + '</g>';
 }
 
 /** Indices of the stars to mark: clean stars by falling SNR, then flagged ones, at most `max`. */
@@ -38,9 +75,13 @@ export function skySvg(report: Report, opts: SkyOptions): string {
   const m = frameMap(report, 1);
   const minR = 5 / s;
   const { clean, flagged } = markedStars(report, opts.maxMarkers ?? 4000);
-  let out = svgOpen(W, H, `Sky: ${report.frame.path}, ${clean.length} clean stars marked`, theme, 'sky-svg', { width, height: H * s });
-  out = out.replace('<svg ', `<svg data-clean-marked="${clean.length}" data-flagged-marked="${flagged.length}" preserveAspectRatio="xMidYMid meet" `);
-  out += `<defs>${RED_FILTER}</defs><g class="zoom-layer">`;
+  const u = 1 / s;
+  const HK = H + (KEY_PX + 8) * u;
+  let out = svgOpen(W, HK, `Sky: ${report.frame.path}, ${clean.length} clean stars marked`, theme, 'sky-svg', { width, height: HK * s });
+  out = out.replace('<svg ', `<svg data-clean-marked="${clean.length}" data-flagged-marked="${flagged.length}" data-frame-width="${W}" preserveAspectRatio="xMidYMid meet" `);
+  // the zoomed picture stays inside the frame's rectangle, above the key
+  out += `<defs>${RED_FILTER}<clipPath id="sl-sky-clip"><rect x="0" y="0" width="${W}" height="${H}"/></clipPath></defs>`;
+  out += `<g clip-path="url(#sl-sky-clip)"><g class="zoom-layer">`;
   if (opts.preview) {
     out += `<image href="${esc(opts.preview.href)}" x="0" y="0" width="${W}" height="${H}" preserveAspectRatio="none"${theme.redImage ? ' filter="url(#sl-red)"' : ''}/>`;
   } else {
@@ -63,5 +104,7 @@ export function skySvg(report: Report, opts: SkyOptions): string {
     out += `<circle class="selected" cx="${r2(m.x(st.x))}" cy="${r2(m.y(st.y))}" r="${r2(Math.max(3 * st.fwhmPx, 2 * minR))}" fill="none" stroke="${theme.selected}" stroke-width="2" vector-effect="non-scaling-stroke"/>`;
   }
   out += `<rect x="0" y="0" width="${W}" height="${H}" fill="none" stroke="${theme.frame}" stroke-width="1" vector-effect="non-scaling-stroke"/>`;
-  return out + '</g></svg>';
+  out += '</g></g>';
+  out += skyKey(report, theme, u, opts.zoom ?? 1);
+  return out + '</svg>';
 }

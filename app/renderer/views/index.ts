@@ -1,0 +1,21 @@
+/**
+ * The registry of the page's views, in tab order. To add a view: write views/<name>.ts
+ * exporting a View ({ name, label, key, render(el, ctx) }) and list it here.
+ */
+import type { View } from '../context.ts';
+import { skyView } from './sky.ts';
+import { shapeView } from './shape.ts';
+import { sizeView } from './size.ts';
+import { focusView } from './focus.ts';
+import { cornersView } from './corners.ts';
+import { findingsView } from './findings.ts';
+import { compareView } from './compare.ts';
+import { sweepView } from './sweep.ts';
+
+export const VIEWS: readonly View[] = [
+  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView,
+];
+
+export function viewNamed(name: string): View | undefined {
+  return VIEWS.find((v) => v.name === name);
+}
