@@ -3,7 +3,7 @@ import type { StarFlag } from '../stars/types.ts';
 import type { DataRegion } from '../image/data-region.ts';
 import type { PixelShape } from '../diagnose/pixel-shape.ts';
 import type { AstrometrySection } from '../sky/section-types.ts';
-import type { ZonePsfSection } from '../field/zone-stack.ts';
+import type { ZonePsfSection } from '../field/zone-psf-types.ts';
 
 export const REPORT_SCHEMA = 'skyloupe.report/1';
 

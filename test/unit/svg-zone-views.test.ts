@@ -7,7 +7,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import type { Report } from '../../core/report/types.ts';
-import type { ZonePsf, ZonePsfSection } from '../../core/field/zone-stack.ts';
+import type { ZonePsf, ZonePsfSection } from '../../core/field/zone-psf-types.ts';
 import { DAY, NIGHT, PRINT } from '../../core/report/svg/theme.ts';
 import { sensorSideData, sensorSideSvg, sensorSideLayout } from '../../core/report/svg/sensor-side.ts';
 import { zonePsfSvg, PSF_CONTOURS } from '../../core/report/svg/zone-psf.ts';

@@ -6,14 +6,14 @@ import type { View } from '../context.ts';
 import { skyView } from './sky.ts';
 import { shapeView } from './shape.ts';
 import { sizeView } from './size.ts';
-import { focusView } from './focus.ts';
-import { cornersView } from './corners.ts';
+import { sensorSideView } from './sensor-side.ts';
+import { zonePsfView } from './zone-psf.ts';
 import { findingsView } from './findings.ts';
 import { compareView } from './compare.ts';
 import { sweepView } from './sweep.ts';
 
 export const VIEWS: readonly View[] = [
-  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView,
+  skyView, shapeView, sizeView, sensorSideView, zonePsfView, findingsView, compareView, sweepView,
 ];
 
 export function viewNamed(name: string): View | undefined {

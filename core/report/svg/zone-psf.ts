@@ -7,7 +7,7 @@
  */
 import { contours } from 'd3-contour';
 import type { Report } from '../types.ts';
-import type { ZonePsf, ZonePsfSection } from '../../field/zone-stack.ts';
+import type { ZonePsf, ZonePsfSection } from '../../field/zone-psf-types.ts';
 import type { Theme } from './theme.ts';
 import { emptyFigure, esc, num, pm, r2, svgOpen, text } from './util.ts';
 
