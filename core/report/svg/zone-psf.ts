@@ -43,7 +43,7 @@ export function zoneWords(z: ZonePsf): [string, string] {
   if (!z.ppm) return [`${z.clean} clean star${z.clean === 1 ? '' : 's'}`, 'no stack'];
   const stars = z.stacked === z.clean ? `${z.stacked} star${z.stacked === 1 ? '' : 's'}` : `${z.stacked} of ${z.clean} stars`;
   return [
-    `${stars} · FWHM ${pm(z.fwhmPx, z.fwhmErrPx, 2)} px`,
+    `${stars} · FWHM ${pm(z.fwhmPx, z.fwhmErrPx, z.fwhmErrPx !== null && z.fwhmErrPx < 0.01 ? 3 : 2)} px`,
     `HFD ${num(z.hfdPx, 2)} px · ellipticity ${pm(z.ellipticity, z.ellipticityErr, 3)}`,
   ];
 }
@@ -64,23 +64,25 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
   const side = zp.side;
   const gap = 16;
   const keyW = 120;
-  const head = 64;
   const words = 40;
   let cell = Math.floor((width - keyW - 4 * gap) / zp.cols);
-  if (opts.maxHeight) cell = Math.min(cell, Math.floor((opts.maxHeight - head - (zp.rows + 1) * gap) / zp.rows - words - 16));
+  if (opts.maxHeight) cell = Math.min(cell, Math.floor((opts.maxHeight - 58 - (zp.rows + 1) * gap) / zp.rows - words - 16));
   cell = Math.max(cell, 90);
   const k = cell / side; // screen px per stack px
+  // a column is as wide as the words beneath its square (11 px text, about 6.3 px a character)
+  const colW = Math.max(cell, Math.max(...zp.zones.map((z) => Math.max(...zoneWords(z).map((w) => w.length)))) * 6.3);
+  const figW = gap * (zp.cols + 1) + zp.cols * colW + keyW;
+  const notes = wrap(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM. Click a zone for its stars.`, Math.floor((figW - 2 * gap) / 6.2));
+  const head = 30 + notes.length * 14;
   const height = head + zp.rows * (cell + words + 16 + gap) + gap;
   const peak = Math.max(...zp.zones.map((z) => (z.ppm ? Math.max(...z.ppm) : 0)), 1);
-  let out = svgOpen(gap * (zp.cols + 1) + zp.cols * cell + keyW, height, label, theme, 'zone-psf-svg');
+  let out = svgOpen(figW, height, label, theme, 'zone-psf-svg');
   out = out.replace('<svg ', `<svg data-side="${side}" data-peak="${peak}" `);
   out += text(gap, 22, label, theme, { size: 15, weight: '600' });
-  const frPx = side * zp.pixelScale;
-  out += text(gap, 40, `Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(frPx, 0)} × ${num(frPx, 0)} frame px.`, theme, { size: 11, fill: theme.muted, cls: 'zone-psf-note' });
-  out += text(gap, 54, `Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM. Click a zone for its stars.`, theme, { size: 11, fill: theme.muted, cls: 'zone-psf-note' });
+  notes.forEach((l, i) => { out += text(gap, 40 + i * 14, l, theme, { size: 11, fill: theme.muted, cls: 'zone-psf-note' }); });
   for (const z of zp.zones) {
     const drow = flipY ? zp.rows - 1 - z.row : z.row;
-    const X = gap + z.col * (cell + gap);
+    const X = gap + z.col * (colW + gap);
     const Y = head + gap + drow * (cell + words + 16 + gap);
     out += `<g class="zone-psf" data-zone="${esc(z.name)}" data-col="${z.col}" data-row="${z.row}" data-stars="${z.stacked}" tabindex="0" role="button" aria-label="${esc(`${NAME[z.name] ?? z.name}: ${zoneWords(z).join(', ')}`)}">`;
     out += text(X, Y - 4, NAME[z.name] ?? z.name, theme, { size: 12, weight: '600' });
@@ -115,7 +117,7 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
     out += text(X, Y + cell + 31, w2, theme, { size: 11, fill: theme.muted, cls: 'zone-words' });
     out += '</g>';
   }
-  out += intensityKey(gap * (zp.cols + 1) + zp.cols * cell + 14, head + gap + 20, Math.min(260, height - head - 60), peak, theme, id);
+  out += intensityKey(gap * (zp.cols + 1) + zp.cols * colW + 14, head + gap + 20, Math.min(260, height - head - 60), peak, theme, id);
   return out + '</svg>';
 }
 
@@ -134,5 +136,15 @@ function intensityKey(x: number, y: number, h: number, peak: number, theme: Them
     out += `<line x1="${r2(x + 14)}" x2="${r2(x + 18)}" y1="${r2(ty)}" y2="${r2(ty)}" stroke="${theme.fg}" stroke-width="1"/>`;
     out += text(x + 21, ty + 4, v >= 10 ? num(v, 0) : v >= 1 ? num(v, 1) : num(v, 2), theme, { size: 11 });
   }
+  return out;
+}
+
+function wrap(s: string, chars: number): string[] {
+  const out: string[] = [];
+  let cur = '';
+  for (const w of s.split(/\s+/)) {
+    if ((cur + ' ' + w).trim().length > chars) { out.push(cur); cur = w; } else cur = (cur + ' ' + w).trim();
+  }
+  if (cur) out.push(cur);
   return out;
 }
