@@ -15,6 +15,7 @@ import { diagnose } from '../../core/diagnose/index.ts';
 import { buildReport } from '../../core/report/build.ts';
 import type { Report } from '../../core/report/types.ts';
 import { reportHtml } from '../../core/report/html.ts';
+import { formatSummary } from '../../core/cli/summary.ts';
 import {
   DAY, NIGHT, PRINT, skySvg, shapeSvg, shapeVectors, sizeSvg, heatGrid, sensorSideSvg, sensorSideData, planeGradient, zonePsfSvg, stampSvg,
   findingsHtml, frameMap, ellipticityFromDistortion, elongationFromDistortion, elongationFromEllipticity, esc, sweepSvg,
@@ -173,6 +174,10 @@ describe('zone stacks, stamps and panels', () => {
     }
     // the stack of many stars is as wide as its stars (median FWHM of the zone's members, within 10 %)
     const centre = zp.zones.find((z) => z.name === 'centre')!;
+    // one value everywhere: the CLI prints the same stack numbers (centre: the middle row, middle cell)
+    const cli = formatSummary(report).split('\n');
+    const head = cli.findIndex((l) => l.startsWith('stacked stars per zone'));
+    expect(cli[head + 2].split('|')[1].trim().split(/\s+/)).toEqual([centre.fwhmPx!.toFixed(2), centre.ellipticity!.toFixed(3), String(centre.stacked)]);
     const fw = centre.members.map((i) => report.stars[i].fwhmPx).sort((a, b) => a - b);
     expect(Math.abs(centre.fwhmPx! / fw[Math.floor(fw.length / 2)] - 1)).toBeLessThan(0.1);
   });
