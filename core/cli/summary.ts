@@ -63,5 +63,6 @@ function zoneStackLines(r: Report): string[] {
     const row = flip ? zp.rows - 1 - k : k;
     out.push('  ' + Array.from({ length: zp.cols }, (_, c) => cell(c, row)).join(' | ').trimEnd());
   }
+  if (zp.note) out.push(`  note: ${zp.note}`);
   return out;
 }

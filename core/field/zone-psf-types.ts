@@ -39,5 +39,7 @@ export interface ZonePsfSection {
   side: number;
   pixelScale: number;
   method: { resampling: string; combine: string; weights: string; measure: string };
+  /** Why the stacks' numbers need care (undersampled stars), or null. */
+  note: string | null;
   zones: ZonePsf[];
 }

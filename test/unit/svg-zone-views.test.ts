@@ -144,7 +144,7 @@ describe('stacked stars per zone', () => {
   const side = 25;
   const names = [['top-left', 'top', 'top-right'], ['left', 'centre', 'right'], ['bottom-left', 'bottom', 'bottom-right']];
   const section = (flip: boolean): ZonePsfSection => ({
-    schema: 'skyloupe.zonepsf/1', cols: 3, rows: 3, side, pixelScale: 1, method: { resampling: '', combine: '', weights: '', measure: '' },
+    schema: 'skyloupe.zonepsf/1', cols: 3, rows: 3, side, pixelScale: 1, method: { resampling: '', combine: '', weights: '', measure: '' }, note: null,
     zones: names.flatMap((row, r) => row.map((n, c) => gaussianZone(c, r, flip ? names[2 - r][c] : n, c === 2 && r === 0 ? 8 : 4, side, 10 + 3 * r + c))),
   });
   const report = (flip: boolean) => ({ frame: { width: 600, height: 400, display: { topRow: flip ? 'last' : 'first', note: '' } }, zonePsf: section(flip) }) as unknown as Report;

@@ -11,6 +11,9 @@ import type { TiltDiagnosis } from '../../diagnose/types.ts';
 import type { Theme } from './theme.ts';
 import { diagnosisOf, emptyFigure, esc, num, pm, r2, svgOpen, text } from './util.ts';
 
+/** The severity scale in people's words (JSON keeps major | minor | info). */
+const SEVERITY_WORDS: Record<string, string> = { major: 'Act on it', minor: 'Worth a look', info: 'Note' };
+
 export interface SensorSideOptions { theme: Theme; width?: number }
 
 /**
@@ -189,7 +192,10 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
     ? `Light comes from the lens at the left. Focus offsets drawn ${num(L.exaggeration, 0)}× larger than distances on the sensor.`
     : `Light comes from the lens at the left. Offsets in px of blur (no pixel size or f-number: no µm).`;
   out += text(gap, 44, scaleWords, theme, { size: 12, fill: theme.muted });
-  out += text(gap, 62, d.significant ? `Tilt worth acting on: ${pm(d.endToEnd, d.endToEndErr, 1)} ${d.unit} from edge to edge along the axis.` : `No tilt that matters: ${pm(d.endToEnd, d.endToEndErr, 1)} ${d.unit} from edge to edge along the axis.`, theme, { size: 13, fill: d.significant ? theme.bad : theme.good, cls: 'tilt-verdict' });
+  // the verdict on the findings' one scale (the tilt finding's severity), never a scale of its own
+  const sev = (report.findings ?? []).find((f) => f.code === 'TILT')?.severity;
+  const verdict = sev ? `${SEVERITY_WORDS[sev] ?? sev}: the sensor is tilted` : 'No tilt finding';
+  out += text(gap, 62, `${verdict}, ${pm(d.endToEnd, d.endToEndErr, 1)} ${d.unit} from edge to edge along the axis.`, theme, { size: 13, fill: sev === 'major' ? theme.bad : sev === 'minor' ? theme.selected : theme.good, cls: 'tilt-verdict' });
   d.sections.forEach((s, k) => {
     const X = gap + k * (panelW + gap);
     out += panel(s, d, L, X, top, panelW, panelH, theme, report);

@@ -72,7 +72,7 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
   // a column is as wide as the words beneath its square (11 px text, about 6.3 px a character)
   const colW = Math.max(cell, Math.max(...zp.zones.map((z) => Math.max(...zoneWords(z).map((w) => w.length)))) * 6.3);
   const figW = gap * (zp.cols + 1) + zp.cols * colW + keyW;
-  const notes = wrap(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM. Click a zone for its stars.`, Math.floor((figW - 2 * gap) / 6.2));
+  const notes = wrap(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM. Click a zone for its stars.${zp.note ? ` Note: ${zp.note}.` : ''}`, Math.floor((figW - 2 * gap) / 6.2));
   const head = 30 + notes.length * 14;
   const height = head + zp.rows * (cell + words + 16 + gap) + gap;
   const peak = Math.max(...zp.zones.map((z) => (z.ppm ? Math.max(...z.ppm) : 0)), 1);
