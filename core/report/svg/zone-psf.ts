@@ -43,7 +43,7 @@ export function zoneWords(z: ZonePsf): [string, string] {
   if (!z.ppm) return [`${z.clean} clean star${z.clean === 1 ? '' : 's'}`, 'no stack'];
   const stars = z.stacked === z.clean ? `${z.stacked} star${z.stacked === 1 ? '' : 's'}` : `${z.stacked} of ${z.clean} stars`;
   return [
-    `${stars} · FWHM ${pm(z.fwhmPx, z.fwhmErrPx, z.fwhmErrPx !== null && z.fwhmErrPx < 0.01 ? 3 : 2)} px`,
+    `${stars} · FWHM ${num(z.fwhmPx, 2)}${z.fwhmErrPx !== null ? ` ± ${z.fwhmErrPx < 0.01 ? z.fwhmErrPx.toFixed(3) : num(z.fwhmErrPx, 2)}` : ''} px`,
     `HFD ${num(z.hfdPx, 2)} px · ellipticity ${pm(z.ellipticity, z.ellipticityErr, 3)}`,
   ];
 }
