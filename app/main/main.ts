@@ -119,7 +119,7 @@ function registerBridge(): void {
 }
 
 function buildMenu(): void {
-  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['sensor', 'Sensor edge-on'], ['stacks', 'Stacked stars'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep']];
+  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['sensor', 'Sensor tilt'], ['stacks', 'Stacked stars'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep']];
   const openRecent = async (p: string) => {
     try {
       send('open', await readChosen(p));

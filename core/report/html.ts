@@ -59,7 +59,7 @@ export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string
     + fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
     + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
     + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), 'Ellipticity 1 − b/a from the moment field, with contours.'));
-  parts.push('<h2>Sensor edge-on</h2>' + fig(sensorSideSvg(report, { theme, width: 900 }), 'The sensor seen from the side in two cuts through the frame centre, along the tilt axis and across it, against best focus: each edge\'s focus offset in µm (drawn exaggerated, as stated).'));
+  parts.push('<h2>Sensor tilt, seen edge-on</h2>' + fig(sensorSideSvg(report, { theme, width: 900 }), 'The sensor seen from the side in two cuts through the frame centre, along the tilt axis and across it, against best focus: each edge\'s focus offset in µm (drawn exaggerated, as stated).'));
   if (report.astrometry) {
     const dd = distortionFigureData(report);
     parts.push('<h2>Sky position and lens geometry</h2>' + astrometryTableHtml(report)

@@ -1,6 +1,6 @@
 /**
  * End-to-end (Debian's Chromium via playwright-core, browser mode): the two views of our own
- * (issue 12 item 8), "Sensor edge-on" and "Stacked stars", on the demo frame, day and night.
+ * (issue 12 item 8), "Sensor tilt" (the sensor seen edge-on) and "Stacked stars", on the demo frame, day and night.
  * Checked on the DOM against the report (the JSON export) and on rendered pixels: each stack's
  * centre is its brightest part, night mode is red on black. Screenshots of both modes go to
  * test-output/screenshots/ (zones-*).
@@ -57,7 +57,7 @@ async function setNight(on: boolean): Promise<void> {
   if (is !== on) await page.keyboard.press('n');
 }
 
-describe('Sensor edge-on', () => {
+describe('Sensor tilt, seen edge-on', () => {
   it('draws both cuts with the report\'s µm at each edge, the drawn offsets at the stated scale', async () => {
     await setNight(false);
     await page.click('#tab-sensor');

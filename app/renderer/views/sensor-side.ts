@@ -1,4 +1,4 @@
-/** Sensor edge-on: the sensor seen from the side in two cuts, against best focus, and what to turn. */
+/** Sensor tilt (the sensor seen edge-on): the sensor seen from the side in two cuts, against best focus, and what to turn. */
 import { sensorSideSvg } from '../../../core/report/svg/index.ts';
 import { h, setMarkup } from '../dom.ts';
 import { figureWidth, fitFigure, needFrame } from '../widgets.ts';
@@ -12,4 +12,4 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   el.append(holder);
 }
 
-export const sensorSideView: View = { name: 'sensor', label: 'Sensor edge-on', key: '4', render };
+export const sensorSideView: View = { name: 'sensor', label: 'Sensor tilt', key: '4', render };

@@ -171,7 +171,7 @@ function roundDown(v: number): number {
 export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
   const { theme } = opts;
   const width = opts.width ?? 900;
-  const label = 'Sensor edge-on';
+  const label = 'Sensor tilt, seen edge-on';
   const dg = diagnosisOf(report);
   if (!dg) return emptyFigure(width, 300, label, 'no diagnosis in this report', theme);
   if (!dg.tilt.supported) return emptyFigure(width, 300, label, dg.tilt.note ?? 'the stars do not support a focus fit', theme);
