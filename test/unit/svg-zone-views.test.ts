@@ -117,6 +117,22 @@ describe('sensor edge-on: the drawn geometry is the report\'s', () => {
     expect(down.sections[0].ends[0].yPx).toBeCloseTo(H - 0.5, 6);
   });
 
+  it('falls back to px of blur without optics, with no exaggeration claimed', () => {
+    const r = tiltReport(0.008, -0.004);
+    const t = (r.diagnosis as { tilt: Record<string, unknown> }).tilt;
+    t.acrossFrameUm = { x: null, y: null };
+    t.acrossFrameBlurPx = { x: 3, y: 1 };
+    (r.frame.optics as { pixelSizeUm: number | null }).pixelSizeUm = null;
+    const dd = sensorSideData(r)!;
+    expect(dd.unit).toBe('px blur');
+    const svg = sensorSideSvg(r, { theme: DAY });
+    expect(svg).toContain('data-exaggeration=""');
+    expect(svg).toContain('px of blur');
+    // the along-axis ends still differ by the plane's change between them, now in px of blur
+    const [e0, e1] = dd.sections[0].ends;
+    expect(Math.abs(e0.offset - e1.offset)).toBeGreaterThan(0);
+  });
+
   it('keeps a readable scale for a tiny tilt and says when nothing needs turning', () => {
     const r = tiltReport(0.0002, 0, { significant: false });
     const dd = sensorSideData(r)!;

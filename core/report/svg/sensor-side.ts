@@ -183,7 +183,8 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
   const panelH = 300;
   const top = 86;
   const L = sensorSideLayout(d, panelW, panelH);
-  const noteLines = wrap(actionText(d, t), Math.floor(width / 7));
+  const curv = dg.curvature?.significant && dg.curvature.cornerDefocusUm !== null ? dg.curvature.cornerDefocusUm : null;
+  const noteLines = wrap(actionText(d, t, curv), Math.floor(width / 7));
   const height = top + panelH + 70 + noteLines.length * 16;
   let out = svgOpen(width, height, label, theme, 'sensor-side-svg');
   out = out.replace('<svg ', `<svg data-z-scale="${L.zScale}" data-s-scale="${L.sScale}" data-exaggeration="${Number.isFinite(L.exaggeration) ? L.exaggeration : ''}" data-significant="${d.significant}" data-sign-resolved="${d.signResolved}" `);
@@ -205,7 +206,7 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
   return out + '</svg>';
 }
 
-function actionText(d: SensorSideData, t: TiltDiagnosis): string {
+function actionText(d: SensorSideData, t: TiltDiagnosis, curvatureUm: number | null): string {
   const [a, b] = d.sections[0].ends;
   const amount = `${pm(d.endToEnd, d.endToEndErr, 1)} ${d.unit}`;
   const parts: string[] = [];
@@ -215,6 +216,7 @@ function actionText(d: SensorSideData, t: TiltDiagnosis): string {
     parts.push(`What to turn: move the ${soft} edge ${amount} toward best focus against the ${sharp} edge (the ${soft} side's stars are the larger).`);
   } else parts.push(`Nothing to turn: the change of focus across the sensor is within what the stars can tell, or too small to matter.`);
   if (!d.signResolved) parts.push('One frame tells how far each edge is from focus, not on which side: the dotted sensor is the mirror reading, just as possible. Two frames a known focus step apart (a focus pair) tell which edge is nearer the lens.');
+  if (curvatureUm !== null) parts.push(`Field curvature also bends best focus, by about ${num(curvatureUm, 0)} µm at the corners against the centre; it is symmetric about the centre, so no tilt of the sensor removes it (not drawn).`);
   if (t.note) parts.push(t.note.replace(/\bum\b/g, 'µm').replace(/\+-/g, '±').replace(/\bdeg\b/g, '°'));
   return parts.join(' ');
 }
