@@ -40,7 +40,7 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   const holder = h('div', { class: 'figure zone-psf-figure' });
   const rem = parseFloat(getComputedStyle(document.documentElement).fontSize) || 16;
   const maxHeight = (($('#view').clientHeight - 24) * 16) / rem;
-  setMarkup(holder, zonePsfSvg(ctx.state.current!.report, { theme: ctx.theme(), width: Math.min(figureWidth(), 1100), maxHeight: Math.max(480, maxHeight) }));
+  setMarkup(holder, zonePsfSvg(ctx.state.current!.report, { theme: ctx.theme(), interactive: true, width: Math.min(figureWidth(), 1100), maxHeight: Math.max(480, maxHeight) }));
   fitFigure(holder);
   el.append(holder, h('div', { id: 'zone-members', class: 'zone-members-panel', 'aria-live': 'polite' }));
   const open = (g: Element | null) => {

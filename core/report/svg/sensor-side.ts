@@ -248,7 +248,7 @@ function panel(s: SensorSection, d: SensorSideData, L: SensorSideLayout, X: numb
   // best focus (the focal surface at the centre's focus)
   const yTop = sy(s.ends[0].along, 0);
   const yBot = sy(s.ends[1].along, 1);
-  out += `<line class="focal-surface" x1="${r2(zc)}" y1="${r2(Y + 18)}" x2="${r2(zc)}" y2="${r2(Y + h - 4)}" stroke="${theme.contour}" stroke-opacity="0.7" stroke-width="1.5" stroke-dasharray="6 4"/>`;
+  out += `<line class="focal-surface" x1="${r2(zc)}" y1="${r2(Y + 18)}" x2="${r2(zc)}" y2="${r2(Y + h - 4)}" stroke="${theme.fg}" stroke-opacity="0.6" stroke-width="1.5" stroke-dasharray="6 4"/>`;
   out += text(zc, Y + 14, 'best focus (centre)', theme, { size: 11, anchor: 'middle', fill: theme.muted });
   // the sensor: a line through its edges' offsets (and its mirror twin while the sign is open)
   const [e0, e1] = s.ends;

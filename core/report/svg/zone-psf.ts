@@ -11,7 +11,7 @@ import type { ZonePsf, ZonePsfSection } from '../../field/zone-psf-types.ts';
 import type { Theme } from './theme.ts';
 import { emptyFigure, esc, num, pm, r2, svgOpen, text } from './util.ts';
 
-export interface ZonePsfOptions { theme: Theme; width?: number; /** Fit into this height too. */ maxHeight?: number; id?: string }
+export interface ZonePsfOptions { theme: Theme; width?: number; /** Fit into this height too. */ maxHeight?: number; id?: string; /** The page lists a zone's stars on a click (the HTML report cannot). */ interactive?: boolean }
 
 /** Contour levels, fractions of each stack's own peak: 0.5 is the half-maximum line. */
 export const PSF_CONTOURS = [0.5, 0.2, 0.05];
@@ -72,7 +72,7 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
   // a column is as wide as the words beneath its square (11 px text, about 6.3 px a character)
   const colW = Math.max(cell, Math.max(...zp.zones.map((z) => Math.max(...zoneWords(z).map((w) => w.length)))) * 6.3);
   const figW = gap * (zp.cols + 1) + zp.cols * colW + keyW;
-  const notes = wrap(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM. Click a zone for its stars.${zp.note ? ` Note: ${zp.note}.` : ''}`, Math.floor((figW - 2 * gap) / 6.2));
+  const notes = wrap(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM.${opts.interactive ? ' Click a zone for its stars.' : ''}${zp.note ? ` Note: ${zp.note}.` : ''}`, Math.floor((figW - 2 * gap) / 6.2));
   const head = 30 + notes.length * 14;
   const height = head + zp.rows * (cell + words + 16 + gap) + gap;
   const peak = Math.max(...zp.zones.map((z) => (z.ppm ? Math.max(...z.ppm) : 0)), 1);
