@@ -27,10 +27,25 @@ export class CameraMemory {
     return { ...this.cams };
   }
 
+  /** What is remembered for one camera, or null. */
+  get(camera: string): OpticsInput | null {
+    return this.cams[camera] ? { ...this.cams[camera] } : null;
+  }
+
+  async forget(camera: string): Promise<void> {
+    if (!(camera in this.cams)) return;
+    delete this.cams[camera];
+    await this.save();
+  }
+
   async remember(camera: string, o: OpticsInput): Promise<void> {
     this.cams[camera] = { ...this.cams[camera], ...o };
     const keys = Object.keys(this.cams);
     if (keys.length > MAX_CAMERAS) delete this.cams[keys[0]];
+    await this.save();
+  }
+
+  private async save(): Promise<void> {
     if (!this.file) return;
     mkdirSync(path.dirname(this.file), { recursive: true });
     await writeFileAtomic(this.file, JSON.stringify({ schema: 'skyloupe.cameras/1', cameras: this.cams }, null, 2) + '\n');

@@ -36,15 +36,20 @@ export interface PipelineOutput {
 
 /** The camera name from the file, or the frame size when the file names none. */
 export function cameraKey(frame: Pick<Frame, 'hints' | 'meta' | 'width' | 'height'>): string {
+  return cameraOf(frame).key;
+}
+
+/** The camera key and whether the file named the camera (else the key is the frame size alone). */
+export function cameraOf(frame: Pick<Frame, 'hints' | 'meta' | 'width' | 'height'>): { key: string; named: boolean } {
   const named = frame.hints?.camera ?? frame.meta.INSTRUME ?? frame.meta.CAMERA;
-  if (typeof named === 'string' && named.trim()) return named.trim().slice(0, 80);
-  return `unnamed camera, ${frame.width} x ${frame.height} px`;
+  if (typeof named === 'string' && named.trim()) return { key: named.trim().slice(0, 80), named: true };
+  return { key: `unnamed camera, ${frame.width} x ${frame.height} px`, named: false };
 }
 
 const FIELDS: OpticsField[] = ['focalLengthMm', 'pixelSizeUm', 'fNumber'];
 
 /** Remembered values fill only what the file lacks; entered values win over both. */
-export function chooseOptics(frame: Pick<Frame, 'hints'>, entered: OpticsInput | undefined, remembered: OpticsInput | undefined): { user: OpticsInput; from: AnalysisResult['opticsFrom'] } {
+export function chooseOptics(frame: Pick<Frame, 'hints'>, entered: OpticsInput | undefined, remembered: OpticsInput | undefined): { user: OpticsInput; from: AnalysisResult['opticsFrom']; given: AnalysisResult['opticsGiven'] } {
   const h = frame.hints;
   const inFile: Record<OpticsField, boolean> = {
     focalLengthMm: !!h?.focalLengthMm,
@@ -52,13 +57,14 @@ export function chooseOptics(frame: Pick<Frame, 'hints'>, entered: OpticsInput |
     fNumber: !!h?.fNumber || (!!h?.focalLengthMm && !!h?.apertureMm),
   };
   const user: OpticsInput = {};
+  const given: AnalysisResult['opticsGiven'] = {};
   let usedRemembered = false;
   for (const k of FIELDS) {
-    if (remembered?.[k] !== undefined && !inFile[k]) { user[k] = remembered[k]; usedRemembered = true; }
+    if (remembered?.[k] !== undefined && !inFile[k]) { user[k] = remembered[k]; given[k] = 'remembered'; usedRemembered = true; }
   }
-  if (entered) for (const k of FIELDS) if (entered[k] !== undefined) user[k] = entered[k];
+  if (entered) for (const k of FIELDS) if (entered[k] !== undefined) { user[k] = entered[k]; given[k] = 'typed'; }
   const from = entered && Object.keys(entered).length ? 'entered' : usedRemembered ? 'remembered' : FIELDS.some((k) => inFile[k]) ? 'file' : 'none';
-  return { user, from };
+  return { user, from, given };
 }
 
 export function missingOptics(report: Report): OpticsField[] {
@@ -69,8 +75,8 @@ export async function runPipeline(input: PipelineInput): Promise<PipelineOutput>
   const progress = input.onProgress ?? (() => {});
   progress('read', 0);
   const frame = await decodeFrame(input.bytes, input.name);
-  const camera = cameraKey(frame);
-  const { user, from } = chooseOptics(frame, input.entered, input.remembered[camera]);
+  const { key: camera, named: cameraNamed } = cameraOf(frame);
+  const { user, from, given } = chooseOptics(frame, input.entered, input.remembered[camera]);
   // the engine's own 'done' is not the end here: the field map and pictures follow
   const engineProgress = (stage: string, f: number) => { if (stage !== 'done') progress(stage, f); };
   const analysis = await analyzeFrame(frame, { user, signal: input.signal, onProgress: engineProgress, workers: input.workers });
@@ -84,7 +90,10 @@ export async function runPipeline(input: PipelineInput): Promise<PipelineOutput>
   const preview = await makePreview(img, stretch);
   progress('done', 1);
   return {
-    result: { name: input.name, camera, opticsFrom: from, opticsMissing: missingOptics(report), report, preview },
+    result: {
+      name: input.name, camera, cameraNamed, opticsFrom: from, opticsGiven: given, rememberedOptics: input.remembered[camera] ?? null,
+      opticsMissing: missingOptics(report), report, preview,
+    },
     pixels: { data: frame.data, width: frame.width, height: frame.height, flipY },
     frame: fromAnalysis(analysis, input.name),
   };

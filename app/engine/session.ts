@@ -18,6 +18,7 @@ import type { FromWorker, ToWorker } from './protocol.ts';
 import type { PipelineOutput } from './pipeline.ts';
 import type { CameraMemory } from './memory.ts';
 import { compareResults, sweepResults, type KeptFrame } from './series.ts';
+import { focusPair, type FocusPairResult } from '../../core/series/focus-pair.ts';
 
 export interface SessionOptions {
   /** The worker entry: worker-boot.mjs from sources, or a bundled worker. */
@@ -114,6 +115,7 @@ export class EngineSession {
         // entered optics are remembered once the worker has named the camera; a memory that
         // cannot be written costs the next frame some typing, not this result
         if (entered) await this.opts.memory.remember(result.camera, entered).catch(() => undefined);
+        result.rememberedOptics = this.opts.memory.get(result.camera);
         this.keep(id, result, out);
         return { ok: true, value: result };
       } catch (err) {
@@ -185,6 +187,27 @@ export class EngineSession {
     if (rs.some((p) => !p.kept)) return fail('not-found', 'open the sweep frames again: some are no longer kept');
     try {
       return { ok: true, value: sweepResults(rs.map((p) => ({ spacingMm: p.spacingMm, ...p.kept! }))) };
+    } catch (err) {
+      return toOutcome(err);
+    }
+  }
+
+  async forgetOptics(camera: string): Promise<Outcome<null>> {
+    try {
+      await this.opts.memory.forget(camera);
+      return { ok: true, value: null };
+    } catch (err) {
+      return fail('internal', `the remembered optics could not be saved (${err instanceof Error ? err.message : String(err)})`);
+    }
+  }
+
+  focusPair(firstId: string, secondId: string, stepUm: number): Outcome<FocusPairResult> {
+    if (firstId === secondId) return fail('usage', 'a focus pair needs two different frames: the same frame is in both places');
+    const a = this.kept(firstId);
+    const b = this.kept(secondId);
+    if (!a || !b) return fail('not-found', 'open both frames again: one of them is no longer kept');
+    try {
+      return { ok: true, value: focusPair({ ...a.frame, label: a.result.name }, { ...b.frame, label: b.result.name }, stepUm) };
     } catch (err) {
       return toOutcome(err);
     }

@@ -75,6 +75,18 @@ export function sweepPoints(v: unknown): { id: string; spacingMm: number }[] {
   });
 }
 
+/** A camera key as the engine makes it (pipeline.ts cameraKey): 1 to 120 printable characters. */
+export function cameraKey(v: unknown): string {
+  if (typeof v !== 'string' || v.length === 0 || v.length > 120 || /[\u0000-\u001f\u007f]/.test(v)) throw usage('camera name must be 1 to 120 printable characters');
+  return v;
+}
+
+/** The focus step of a focus pair: micrometres at the sensor, non-zero, at most 10 mm. */
+export function focusStepUm(v: unknown): number {
+  if (typeof v !== 'number' || !Number.isFinite(v) || v === 0 || Math.abs(v) > 10_000) throw usage('the focus step must be a non-zero number of micrometres (at most 10000)');
+  return v;
+}
+
 /** PNG signature (RFC 2083 section 12.11), so the save path only ever writes a PNG. */
 export function pngBytes(v: unknown): Uint8Array {
   const b = v instanceof Uint8Array ? v : v instanceof ArrayBuffer ? new Uint8Array(v) : null;

@@ -17,11 +17,12 @@ import * as check from '../engine/validate.ts';
 import { pageHtml, PAGE_CSP, PAGE_CSP_HEADER_EXTRA } from '../page.ts';
 import { CHANNELS, type AppConfig, type FrameFile, type MenuCommand, type Outcome, type SavedFile } from '../preload/bridge.ts';
 import { RecentFiles } from './recent.ts';
+import { FRAME_EXTENSIONS } from '../../core/frame/extensions.ts';
 
 const SCHEME = 'skyloupe';
 const ORIGIN = `${SCHEME}://app`;
 const FRAME_FILTERS = [
-  { name: 'Frames', extensions: ['fits', 'fit', 'fts', 'tif', 'tiff', 'png', 'jpg', 'jpeg'] },
+  { name: 'Frames', extensions: [...new Set(FRAME_EXTENSIONS.map((e) => e.split('.').pop() as string))] },
   { name: 'All files', extensions: ['*'] },
 ];
 
@@ -103,6 +104,8 @@ function registerBridge(): void {
   handle(CHANNELS.stamp, (id, i) => engine.stamp(check.analysisId(id), check.starIndex(i)));
   handle(CHANNELS.compare, (a, b) => engine.compare(check.analysisId(a), check.analysisId(b)));
   handle(CHANNELS.sweep, (points) => engine.sweep(check.sweepPoints(points)));
+  handle(CHANNELS.forgetOptics, (camera) => engine.forgetOptics(check.cameraKey(camera)));
+  handle(CHANNELS.focusPair, (a, b, stepUm) => engine.focusPair(check.analysisId(a), check.analysisId(b), check.focusStepUm(stepUm)));
   handle(CHANNELS.exportReport, async (id, kind) => {
     const k = check.exportKind(kind);
     const out = engine.exportFile(check.analysisId(id), k);
@@ -119,7 +122,7 @@ function registerBridge(): void {
 }
 
 function buildMenu(): void {
-  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['sensor', 'Sensor tilt'], ['stacks', 'Stacked stars'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep']];
+  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['sensor', 'Sensor tilt'], ['stacks', 'Stacked stars'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep'], ['focuspair', 'Focus pair']];
   const openRecent = async (p: string) => {
     try {
       send('open', await readChosen(p));

@@ -7,6 +7,9 @@
 import type { Report, ReportStar } from '../../core/report/types.ts';
 import type { Preview, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
 import type { StampInput } from '../../core/report/svg/stamp.ts';
+import type { FocusPairResult } from '../../core/series/focus-pair-types.ts';
+
+export type { FocusPairResult } from '../../core/series/focus-pair-types.ts';
 
 export type { ImageRef, Preview, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
 
@@ -46,6 +49,12 @@ export interface AnalysisResult {
   camera: string;
   /** Where the optics came from: the file, the form just now, or the values remembered for this camera. */
   opticsFrom: 'file' | 'entered' | 'remembered' | 'none';
+  /** The file names its camera; false: \`camera\` is only the frame size, and remembered optics matched by size alone. */
+  cameraNamed: boolean;
+  /** Optics fields given by the user: typed into the form for this run, or remembered for the camera. */
+  opticsGiven: Partial<Record<OpticsField, 'typed' | 'remembered'>>;
+  /** What is remembered for \`camera\` after this run (null: nothing). */
+  rememberedOptics: OpticsInput | null;
   opticsMissing: OpticsField[];
   report: Report;
   preview: Preview;
@@ -87,6 +96,10 @@ export interface SkyloupeBridge {
   stamp(id: string, starIndex: number): Promise<Outcome<StampData>>;
   compare(idA: string, idB: string): Promise<Outcome<CompareResult>>;
   sweep(points: { id: string; spacingMm: number }[]): Promise<Outcome<SweepResult>>;
+  /** Two analysed frames a known focus step apart (µm at the sensor, second minus first): the signed tilt. */
+  focusPair(firstId: string, secondId: string, stepUm: number): Promise<Outcome<FocusPairResult>>;
+  /** Forget the optics remembered for a camera key (AnalysisResult.camera). */
+  forgetOptics(camera: string): Promise<Outcome<null>>;
   exportReport(id: string, kind: ExportKind): Promise<Outcome<SavedFile>>;
   savePng(filename: string, bytes: ArrayBuffer): Promise<Outcome<SavedFile>>;
   /** Desktop: the native open dialog (null when dismissed). Browser mode: always null (the page uses a file input). */
@@ -104,6 +117,8 @@ export const CHANNELS = {
   stamp: 'skyloupe:stamp',
   compare: 'skyloupe:compare',
   sweep: 'skyloupe:sweep',
+  focusPair: 'skyloupe:focus-pair',
+  forgetOptics: 'skyloupe:forget-optics',
   exportReport: 'skyloupe:export',
   savePng: 'skyloupe:save-png',
   openFileDialog: 'skyloupe:open-dialog',

@@ -20,6 +20,8 @@ export interface ViewContext {
   showMessage(text: string | null, kind?: 'error' | 'info'): void;
   failureText(o: Extract<Outcome<unknown>, { ok: false }>): string;
   selectStar(i: number | null): void;
+  /** Show the optics fields (what is in use, where it came from) and put the cursor in them. */
+  openOptics(): void;
 }
 
 /** One view of the page: a tab, a key, and a function that fills the #view pane. */

@@ -4,7 +4,7 @@
  */
 import type {
   AnalysisResult, AppConfig, CompareResult, ExportKind, FrameFile, MenuCommand, OpticsInput, Outcome, Progress,
-  SavedFile, SkyloupeBridge, StampData, SweepResult,
+  SavedFile, SkyloupeBridge, StampData, SweepResult, FocusPairResult,
 } from '../preload/bridge.ts';
 
 const TOKEN_HEADER = 'X-Skyloupe-Token';
@@ -92,6 +92,8 @@ export function httpBridge(token: string): SkyloupeBridge {
     stamp: (id: string, i: number) => outcome<StampData>(`/api/stamp?id=${encodeURIComponent(id)}&i=${i}`),
     compare: (a: string, b: string) => outcome<CompareResult>('/api/compare', { method: 'POST', body: JSON.stringify({ a, b }), headers: { 'Content-Type': 'application/json' } }),
     sweep: (points) => outcome<SweepResult>('/api/sweep', { method: 'POST', body: JSON.stringify({ points }), headers: { 'Content-Type': 'application/json' } }),
+    forgetOptics: (camera) => outcome<null>('/api/forget-optics', { method: 'POST', body: JSON.stringify({ camera }), headers: { 'Content-Type': 'application/json' } }),
+    focusPair: (a, b, stepUm) => outcome<FocusPairResult>('/api/focus-pair', { method: 'POST', body: JSON.stringify({ a, b, stepUm }), headers: { 'Content-Type': 'application/json' } }),
     async exportReport(id: string, kind: ExportKind): Promise<Outcome<SavedFile>> {
       try {
         const res = await fetch(`/api/export?id=${encodeURIComponent(id)}&kind=${kind}`, { headers });

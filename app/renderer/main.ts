@@ -17,7 +17,8 @@ import { VIEWS, viewNamed } from './views/index.ts';
 import { panBy, zoomBy, zoomReset } from './views/sky.ts';
 import { setCompareFrame } from './views/compare.ts';
 import { showMessage, failureText, setBusy, onProgress } from './messages.ts';
-import { renderSummary, renderOptics, renderStar, selectStar } from './side.ts';
+import { renderSummary, renderStar, selectStar } from './side.ts';
+import { openOptics, renderOptics, toggleOptics } from './optics-panel.ts';
 import { ACCEPT, button, fileFrom } from './widgets.ts';
 
 declare global {
@@ -44,6 +45,7 @@ function buildPage(): void {
         button('btn-export-json', 'JSON', 'Save the JSON report', { disabled: true }),
         button('btn-export-csv', 'CSV', 'Save the star table as CSV', { disabled: true }),
         button('btn-export-png', 'PNG', 'Save this view as a PNG picture (P)', { disabled: true })),
+      button('btn-optics-panel', 'Optics', 'Optics in use and where they came from (F)', { 'aria-expanded': 'false', 'aria-controls': 'optics-form', disabled: true }),
       button('btn-night', 'Night', 'Red night mode for the telescope (N)', { 'aria-pressed': 'false' }),
       button('btn-help', 'Keys', 'Keyboard keys (?)')),
     h('div', { id: 'progress', class: 'progress', hidden: true, role: 'status', 'aria-live': 'polite' },
@@ -53,11 +55,14 @@ function buildPage(): void {
     h('div', { id: 'message', class: 'message', role: 'alert', hidden: true }),
     h('form', { id: 'optics-form', class: 'optics-form', hidden: true, 'aria-label': 'Optics' },
       h('p', { id: 'optics-why' }),
-      h('label', {}, 'Focal length ', h('input', { id: 'in-focal', name: 'focalLengthMm', type: 'number', step: 'any', min: '1', max: '100000', inputmode: 'decimal' }), ' mm'),
-      h('label', {}, 'Pixel size ', h('input', { id: 'in-pixel', name: 'pixelSizeUm', type: 'number', step: 'any', min: '0.2', max: '100', inputmode: 'decimal' }), ' µm'),
-      h('label', {}, 'f/', h('input', { id: 'in-fnum', name: 'fNumber', type: 'number', step: 'any', min: '0.5', max: '200', inputmode: 'decimal' })),
-      h('button', { id: 'btn-optics', type: 'submit' }, 'Analyse again'),
-      h('span', { id: 'optics-camera', class: 'muted' })),
+      h('label', {}, 'Focal length ', h('input', { id: 'in-focal', name: 'focalLengthMm', type: 'number', step: 'any', min: '1', max: '100000', inputmode: 'decimal' }), ' mm ', h('span', { id: 'src-focalLengthMm', class: 'optics-src' })),
+      h('label', {}, 'Pixel size ', h('input', { id: 'in-pixel', name: 'pixelSizeUm', type: 'number', step: 'any', min: '0.2', max: '100', inputmode: 'decimal' }), ' µm ', h('span', { id: 'src-pixelSizeUm', class: 'optics-src' })),
+      h('label', {}, 'f-number f/', h('input', { id: 'in-fnum', name: 'fNumber', type: 'number', step: 'any', min: '0.5', max: '200', inputmode: 'decimal' }), ' ', h('span', { id: 'src-fNumber', class: 'optics-src' })),
+      h('span', { class: 'optics-buttons' },
+        h('button', { id: 'btn-optics', type: 'submit' }, 'Analyse again with these'),
+        button('btn-optics-forget', 'Forget remembered optics', 'Forget what is remembered for this camera and analyse again', { hidden: true }),
+        button('btn-optics-close', 'Close', 'Hide the optics fields'),
+        h('span', { id: 'optics-camera', class: 'muted' }))),
     h('div', { class: 'body' },
       h('nav', { id: 'tabs', class: 'tabs', role: 'tablist', 'aria-label': 'Views', 'aria-orientation': 'vertical' }, ...tabs),
       h('main', { id: 'view', class: 'view', role: 'tabpanel', tabindex: '0', 'aria-live': 'polite' }),
@@ -129,6 +134,7 @@ const ctx: ViewContext = {
   showMessage,
   failureText,
   selectStar,
+  openOptics,
 };
 
 function render(): void {
@@ -225,15 +231,34 @@ function wireInput(): void {
   $('#btn-export-json').addEventListener('click', () => void exportKind('json'));
   $('#btn-export-csv').addEventListener('click', () => void exportKind('csv'));
   $('#btn-export-png').addEventListener('click', () => void exportPng());
+  $('#btn-optics-panel').addEventListener('click', toggleOptics);
+  $('#btn-optics-close').addEventListener('click', () => { $('#optics-form').hidden = true; $('#btn-optics-panel').setAttribute('aria-expanded', 'false'); });
+  $('#btn-optics-forget').addEventListener('click', async () => {
+    const r = state.current;
+    if (!r || !state.source) return;
+    const o = await state.bridge.forgetOptics(r.camera);
+    if (!o.ok) { showMessage(failureText(o)); return; }
+    await openMain(state.source);
+  });
+  $('#summary').addEventListener('click', (ev) => {
+    if ((ev.target as HTMLElement).closest('[data-action="optics"]')) openOptics();
+  });
   ($('#optics-form') as HTMLFormElement).addEventListener('submit', (ev) => {
     ev.preventDefault();
     if (!state.source) return;
     const val = (id: string) => { const v = ($(id) as HTMLInputElement).valueAsNumber; return Number.isFinite(v) && v > 0 ? v : undefined; };
+    // only what the user changed (or filled in) counts as typed: values from the file stay the file's
+    const inUse = state.current?.report.frame.optics;
+    const given = state.current?.opticsGiven ?? {};
     const optics: OpticsInput = {};
-    const f = val('#in-focal'); if (f) optics.focalLengthMm = f;
-    const p = val('#in-pixel'); if (p) optics.pixelSizeUm = p;
-    const n = val('#in-fnum'); if (n) optics.fNumber = n;
-    void openMain(state.source, optics);
+    const take = (k: keyof OpticsInput, id: string) => {
+      const v = val(id);
+      if (v !== undefined && (v !== inUse?.[k] || given[k] !== undefined)) optics[k] = v;
+    };
+    take('focalLengthMm', '#in-focal');
+    take('pixelSizeUm', '#in-pixel');
+    take('fNumber', '#in-fnum');
+    void openMain(state.source, Object.keys(optics).length ? optics : undefined);
   });
   const tabs = $('#tabs');
   tabs.addEventListener('click', (ev) => {
@@ -277,6 +302,7 @@ function wireInput(): void {
       case 'o': case 'O': void openDialog(); break;
       case 'd': case 'D': void openMain({ kind: 'demo' }); break;
       case 'n': case 'N': toggleNight(); break;
+      case 'f': case 'F': if (state.current) toggleOptics(); break;
       case 'e': case 'E': void exportKind('html'); break;
       case 'p': case 'P': void exportPng(); break;
       case '?': ($('#help-dialog') as HTMLDialogElement).showModal(); break;

@@ -2,6 +2,7 @@
 import type { Outcome, Progress } from '../preload/bridge.ts';
 import { $ } from './dom.ts';
 import { state } from './state.ts';
+import { FRAME_KINDS_WORDS } from '../../core/frame/extensions.ts';
 
 const STAGE_WORDS: Record<string, string> = {
   read: 'Reading the frame', background: 'Modelling the sky background', detect: 'Finding stars',
@@ -23,7 +24,7 @@ export function showMessage(text: string | null, kind: 'error' | 'info' = 'error
 
 export function failureText(o: Extract<Outcome<unknown>, { ok: false }>): string {
   switch (o.kind) {
-    case 'unreadable': return `This file cannot be read. ${o.message}. skyloupe reads FITS, TIFF, PNG and JPEG frames.`;
+    case 'unreadable': return `This file cannot be read. ${o.message}. skyloupe reads ${FRAME_KINDS_WORDS} frames.`;
     case 'no-stars': return `No stars to measure. ${o.message}`;
     case 'cancelled': return 'Analysis stopped.';
     case 'usage': return o.message;

@@ -2,6 +2,7 @@
 import { summaryHtml, stampSvg, esc, num } from '../../core/report/svg/index.ts';
 import { $, setMarkup } from './dom.ts';
 import { state, theme } from './state.ts';
+import { cameraWords, matchedBySizeAlone } from './optics-panel.ts';
 
 export function renderSummary(): void {
   const r = state.current;
@@ -9,23 +10,10 @@ export function renderSummary(): void {
   if (!r) { setMarkup(el, '<p class="muted">Drop a frame anywhere, or open one. The demo frame shows what skyloupe finds.</p>'); return; }
   const findings = r.report.findings;
   const counts = findings ? `${findings.length} finding${findings.length === 1 ? '' : 's'} (${findings.filter((f) => f.severity === 'major').length} to act on)` : 'no diagnosis';
-  const from = r.opticsFrom === 'remembered' ? `<p class="muted">Optics remembered for “${esc(r.camera)}” were used.</p>` : '';
+  const from = matchedBySizeAlone(r)
+    ? `<p class="optics-note" data-by-size="true">Optics remembered for another frame of this size were used: the file names no camera, so the match is by frame size alone. <button type="button" class="link" data-action="optics">Check the optics</button></p>`
+    : r.opticsFrom === 'remembered' ? `<p class="muted optics-note">Optics remembered for ${esc(cameraWords(r))} were used. <button type="button" class="link" data-action="optics">Optics</button></p>` : '';
   setMarkup(el, `<h2>Summary</h2>${summaryHtml(r.report)}<p class="findings-count" data-count="${findings?.length ?? 0}">${counts}</p>${from}`);
-}
-
-export function renderOptics(): void {
-  const r = state.current;
-  const form = $('#optics-form') as HTMLFormElement;
-  if (!r || r.opticsMissing.length === 0) { form.hidden = true; return; }
-  const words: Record<string, string> = { focalLengthMm: 'focal length', pixelSizeUm: 'pixel size', fNumber: 'f-number' };
-  const missing = r.opticsMissing.map((k) => words[k]).join(', ');
-  $('#optics-why').textContent = `Optics missing: ${missing}. Without focal length and pixel size sizes stay in pixels; without the f-number and pixel size focus errors cannot be given in micrometres. Enter them to analyse again.`;
-  const o = r.report.frame.optics;
-  ($('#in-focal') as HTMLInputElement).value = o.focalLengthMm ? String(o.focalLengthMm) : '';
-  ($('#in-pixel') as HTMLInputElement).value = o.pixelSizeUm ? String(o.pixelSizeUm) : '';
-  ($('#in-fnum') as HTMLInputElement).value = o.fNumber ? String(o.fNumber) : '';
-  $('#optics-camera').textContent = `remembered for: ${r.camera}`;
-  form.hidden = false;
 }
 
 export async function renderStar(): Promise<void> {

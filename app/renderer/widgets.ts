@@ -3,8 +3,10 @@ import { $, h, setMarkup } from './dom.ts';
 import type { FrameFile } from '../preload/bridge.ts';
 import type { PageState } from './state.ts';
 
-/** Extensions the file pickers offer. */
-export const ACCEPT = '.fits,.fit,.fts,.fits.fz,.tif,.tiff,.png,.jpg,.jpeg';
+import { FRAME_EXTENSIONS } from '../../core/frame/extensions.ts';
+
+/** Extensions the file pickers offer: everything the frame reader takes, camera raws included. */
+export const ACCEPT = FRAME_EXTENSIONS.join(',');
 
 export function button(id: string, label: string, title: string, extra: Record<string, string | boolean> = {}): HTMLButtonElement {
   return h('button', { id, type: 'button', title, ...extra }, label);

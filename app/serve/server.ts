@@ -148,6 +148,14 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
         const b = await readJson(req);
         return sendJson(res, 200, session.sweep(check.sweepPoints(b.points)));
       }
+      case 'POST /api/forget-optics': {
+        const b = await readJson(req);
+        return sendJson(res, 200, await session.forgetOptics(check.cameraKey(b.camera)));
+      }
+      case 'POST /api/focus-pair': {
+        const b = await readJson(req);
+        return sendJson(res, 200, session.focusPair(check.analysisId(b.a), check.analysisId(b.b), check.focusStepUm(b.stepUm)));
+      }
       case 'GET /api/export': {
         const out = session.exportFile(check.analysisId(url.searchParams.get('id')), check.exportKind(url.searchParams.get('kind')));
         if (!out.ok) return sendJson(res, 404, out);

@@ -9,8 +9,10 @@ import { decodeRaster, rasterFormatOf } from './raster.ts';
 import { decodeRaw, isDng } from './raw.ts';
 import type { Frame } from './types.ts';
 
+import { TIFF_BASED_RAW as TIFF_RAW_LIST } from './extensions.ts';
+
 /** Camera raw formats built on TIFF: sharp would quietly read their small preview image instead. */
-const TIFF_BASED_RAW = new Set(['.cr2', '.nef', '.nrw', '.arw', '.srf', '.sr2', '.dng', '.pef', '.orf', '.rw2', '.erf', '.3fr', '.iiq', '.mef', '.mos', '.kdc', '.dcr']);
+const TIFF_BASED_RAW = new Set(TIFF_RAW_LIST);
 
 function ascii(b: Uint8Array, at: number, s: string): boolean {
   if (at + s.length > b.length) return false;
@@ -37,7 +39,7 @@ async function dispatch(bytes: Uint8Array, name: string, depth = 0): Promise<Fra
     if (fmt === 'tiff' && (TIFF_BASED_RAW.has(path.extname(name).toLowerCase()) || isDng(bytes))) return decodeRaw(bytes);
     return decodeRaster(bytes);
   }
-  throw unreadable('unrecognised file format (expected FITS, TIFF, PNG or JPEG)');
+  throw unreadable('unrecognised file format (expected FITS, TIFF, PNG, JPEG or a camera raw)');
 }
 
 /** Decodes a frame held in memory; `name` is used for messages and to spot camera raw files. */

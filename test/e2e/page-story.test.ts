@@ -4,12 +4,16 @@
  * Comparison values come from the report itself (the JSON export) and from the issue's wording.
  */
 import { describe, expect, it, beforeAll, afterAll } from 'vitest';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync, existsSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import sharp from 'sharp';
 import type { BrowserContext, Page } from 'playwright-core';
 import type { Report } from '../../core/report/types.ts';
+import { renderScene } from '../../core/simulate/render.ts';
+import { parseScene } from '../../core/simulate/scene.ts';
+import { fitsBytes } from '../../core/simulate/write.ts';
+import { decodeFrame } from '../../core/frame/read.ts';
 import { launch, startServe, type Served } from './browser.ts';
 
 declare const document: any;
@@ -20,6 +24,27 @@ let page: Page;
 let report: Report;
 let dir: string;
 const pageErrors: string[] = [];
+const files: Record<string, string> = {};
+
+/** Optics for the focus pair frames (an invented small refractor). */
+const PAIR_OPTICS = { pixelSizeUm: 4.5, focalLengthMm: 400, fNumber: 5 };
+/** Scene truth: the focus error grows by 40 µm from the left edge to the right edge (right side behind focus). */
+const PAIR_TILT_X_UM = 40;
+const PAIR_STEP_UM = 40;
+
+function scene(seed: number, aberrations: Record<string, number>, size: [number, number], count: number, optics?: Record<string, number>) {
+  return fitsBytes(renderScene(parseScene({
+    schema: 'skyloupe.scene/1', width: size[0], height: size[1], seed, stars: { count }, ...(optics ? { optics } : {}),
+    psf: { kind: 'optics', seeing: { fwhmPx: 2.4 }, aberrations },
+  })));
+}
+
+/** A 16-bit PNG of a simulated frame: no camera name, no optics. */
+async function pngOf(fits: Uint8Array): Promise<Buffer> {
+  const f = await decodeFrame(fits, 'x.fits');
+  const u16 = Uint16Array.from(f.data, (v) => Math.min(65535, Math.round(v)));
+  return sharp(u16, { raw: { width: f.width, height: f.height, channels: 1 } }).toColourspace('grey16').png().toBuffer();
+}
 
 async function currentReport(): Promise<Report> {
   const id = (await page.getAttribute('body', 'data-analysis')) ?? '';
@@ -57,6 +82,12 @@ async function nonRedPixels(png: Buffer): Promise<{ count: number; total: number
 
 beforeAll(async () => {
   dir = mkdtempSync(path.join(os.tmpdir(), 'skyloupe-story-'));
+  const put = (name: string, bytes: Uint8Array) => { files[name] = path.join(dir, name); writeFileSync(files[name], bytes); };
+  put('pair-1.fits', scene(71, { tiltXUmAcross: PAIR_TILT_X_UM, defocusCenterUm: 0 }, [900, 600], 450, PAIR_OPTICS));
+  put('pair-2.fits', scene(72, { tiltXUmAcross: PAIR_TILT_X_UM, defocusCenterUm: PAIR_STEP_UM }, [900, 600], 450, PAIR_OPTICS));
+  const plain = scene(73, {}, [640, 420], 220);
+  put('night-one.png', await pngOf(plain));
+  put('night-two.png', await pngOf(scene(74, {}, [640, 420], 220)));
   served = await startServe(path.join(dir, 'config'));
   ({ ctx, page } = await launch());
   page.on('pageerror', (e) => pageErrors.push(e.message));
@@ -151,6 +182,118 @@ describe('legends, scales and clipping (issue 12 item 7)', () => {
     expect(Math.abs(z4.barW - z4.px * (z4.frameW / W))).toBeLessThan(3);
     expect(z4.px).toBeLessThan(z1.px);
     await page.keyboard.press('0');
+  });
+});
+
+describe('the page does what the findings ask (issue 12 item 5)', () => {
+  it('speaks of its own controls, in µm, ± and °, and offers them as buttons', async () => {
+    await page.click('#tab-findings');
+    const items = await page.$$eval('li.finding', (els: any[]) => els.map((e) => ({
+      code: e.dataset.code, text: e.querySelector('.finding-message').textContent,
+      actions: [...e.querySelectorAll('.finding-action')].map((b: any) => b.dataset.target),
+      cells: [...e.querySelectorAll('.finding-numbers th')].map((c: any) => c.textContent).join(' '),
+    })));
+    expect(items.length).toBe((report.findings ?? []).length);
+    const numbers = (s: string) => (s.match(/-?\d+(?:\.\d+)?/g) ?? []).join(' ');
+    for (const f of report.findings ?? []) {
+      const shown = items.find((i: { code: string }) => i.code === f.code)!;
+      // no command line, no ASCII units; the same numbers as the JSON's message
+      expect(shown.text).not.toMatch(/skyloupe [a-z]|--[a-z]|\bum\b|\+-|\bdeg\b/);
+      expect(shown.cells).not.toMatch(/\bum\b|\+-|\bdeg\b/);
+      expect(numbers(shown.text)).toBe(numbers(f.message));
+      // what the JSON message asks for (by its own words) has a button
+      if (/focus-pair/.test(f.message)) expect(shown.actions).toContain('view:focuspair');
+      if (/skyloupe sweep/.test(f.message)) expect(shown.actions).toContain('view:sweep');
+      if (/--f-number|--pixel-size/.test(f.message)) expect(shown.actions).toContain('optics');
+    }
+    // the demo frame's tilt finding sends the user to the focus pair
+    const tilt = items.find((i: { code: string }) => i.code === 'TILT');
+    expect(tilt, 'the demo frame has a tilt finding').toBeTruthy();
+    await page.click('li.finding[data-code="TILT"] .finding-action[data-target="view:focuspair"]');
+    expect(await page.getAttribute('#view', 'data-view')).toBe('focuspair');
+    expect(await page.getAttribute('#tab-focuspair', 'aria-selected')).toBe('true');
+  });
+
+  it('finds the signed tilt from a focus pair, as the scene has it', async () => {
+    await page.setInputFiles('#pair-first-input', files['pair-1.fits']);
+    await page.waitForFunction(() => (document.querySelector('#pair-slot-first .slot-name')?.textContent ?? '').includes('pair-1'), null, { timeout: 90_000 });
+    await page.setInputFiles('#pair-second-input', files['pair-2.fits']);
+    await page.waitForFunction(() => (document.querySelector('#pair-slot-second .slot-name')?.textContent ?? '').includes('pair-2'), null, { timeout: 90_000 });
+    // a missing step is a clear message, not a crash
+    await page.fill('#pair-step', '');
+    await page.click('#btn-pair-run');
+    expect(await page.textContent('#message')).toContain('focus step');
+    await page.fill('#pair-step', String(PAIR_STEP_UM));
+    await page.click('#btn-pair-run');
+    await page.waitForSelector('#pair-result', { timeout: 60_000 });
+    expect(await page.getAttribute('#pair-result', 'data-sign-resolved')).toBe('true');
+    const width = await page.$eval('.pair-table', (t: any) => [...t.querySelectorAll('tr')].find((r: any) => r.textContent.includes('across the width')).querySelector('td').textContent);
+    const um = Number(/(-?[\d.]+)/.exec(width)![1]);
+    // scene truth: +40 µm across the width (right side behind focus); 25 % as in series-synthetic.test.ts
+    expect(Math.abs(um - PAIR_TILT_X_UM)).toBeLessThan(0.25 * PAIR_TILT_X_UM);
+    expect(width).toContain('µm');
+    expect(await page.textContent('#pair-result .finding-message')).not.toMatch(/\bum\b|\+-/);
+  });
+
+  it('lets every file picker take camera raws', async () => {
+    const accepts = await page.evaluate(() => [...document.querySelectorAll('input[type=file]')].map((e: any) => e.accept));
+    expect(accepts.length).toBeGreaterThanOrEqual(3);
+    // the raw formats of the main camera makers (common practice) and the README's formats
+    for (const ext of ['.cr2', '.cr3', '.nef', '.arw', '.raf', '.orf', '.rw2', '.dng', '.fits', '.fits.gz', '.fz', '.tif', '.png', '.jpg']) {
+      for (const a of accepts) expect(a.split(',').some((x: string) => x === ext || (ext === '.fz' && x.endsWith('.fz')))).toBe(true);
+    }
+  });
+});
+
+describe('remembered optics (issue 12 item 6)', () => {
+  it('shows where each optics value came from', async () => {
+    await page.click('#btn-demo');
+    await waitAnalysis(await page.getAttribute('body', 'data-analysis'));
+    await page.click('#btn-optics-panel');
+    expect(await page.isVisible('#optics-form')).toBe(true);
+    const o = report.frame.optics;
+    // the demo frame states its optics in the FITS header: the panel names the card
+    expect(await page.textContent('#src-focalLengthMm')).toBe(`from the file header (${o.source.keywords!.focalLengthMm})`);
+    expect(Number(await page.inputValue('#in-focal'))).toBe(o.focalLengthMm);
+    await page.click('#btn-optics-close');
+    expect(await page.isHidden('#optics-form')).toBe(true);
+  });
+
+  it('says when optics were matched to an unnamed camera by frame size alone, and forgets them', async () => {
+    let id = await page.getAttribute('body', 'data-analysis');
+    await page.setInputFiles('#file-input', files['night-one.png']);
+    await waitAnalysis(id);
+    await page.waitForSelector('#optics-form:not([hidden])');
+    expect(await page.textContent('#optics-why')).toContain('Optics missing');
+    expect(await page.textContent('#src-focalLengthMm')).toBe('unknown');
+    await page.fill('#in-focal', '250');
+    await page.fill('#in-pixel', '3.8');
+    await page.fill('#in-fnum', '5');
+    id = await page.getAttribute('body', 'data-analysis');
+    await page.click('#btn-optics');
+    await waitAnalysis(id);
+    expect(await page.isHidden('#optics-form')).toBe(true);
+    // another frame of the same size from an unnamed camera: used, and said so
+    id = await page.getAttribute('body', 'data-analysis');
+    await page.setInputFiles('#file-input', files['night-two.png']);
+    await waitAnalysis(id);
+    await page.waitForSelector('#optics-form:not([hidden])');
+    expect(await page.getAttribute('#optics-form', 'data-by-size')).toBe('true');
+    expect(await page.textContent('#optics-why')).toContain('frame size alone');
+    expect(await page.textContent('#src-focalLengthMm')).toContain('remembered for frames of 640 × 420 px');
+    expect(await page.getAttribute('#summary .optics-note', 'data-by-size')).toBe('true');
+    const r2 = await currentReport();
+    expect(r2.frame.optics.focalLengthMm).toBe(250);
+    const cams = path.join(dir, 'config', 'cameras.json');
+    expect(Object.keys(JSON.parse(readFileSync(cams, 'utf8')).cameras)).toContain('unnamed camera, 640 x 420 px');
+    // forget: the memory file loses the entry and the frame is analysed again without it
+    id = await page.getAttribute('body', 'data-analysis');
+    await page.click('#btn-optics-forget');
+    await waitAnalysis(id);
+    expect(existsSync(cams)).toBe(true);
+    expect(JSON.parse(readFileSync(cams, 'utf8')).cameras['unnamed camera, 640 x 420 px']).toBeUndefined();
+    expect(await page.textContent('#optics-why')).toContain('Optics missing');
+    expect((await currentReport()).frame.optics.focalLengthMm).toBeNull();
   });
 });
 

@@ -138,10 +138,27 @@ describe('optics remembered per camera', () => {
     expect(second.opticsMissing).toEqual([]);
     // plate scale 206.265 p / f arcsec per px (optics.md section 7)
     expect(second.report.frame.optics.plateScaleArcsecPerPx).toBeCloseTo((206.265 * 4.3) / 200, 3);
+    expect(second.opticsGiven).toEqual({ focalLengthMm: 'typed', pixelSizeUm: 'typed', fNumber: 'typed' });
+    expect(second.rememberedOptics).toEqual(entered);
     const third = await ok(session.analyze({ name: 'other-night.png', bytes: png }));
     expect(third.opticsFrom).toBe('remembered');
+    expect(third.opticsGiven.focalLengthMm).toBe('remembered');
+    // a PNG names no camera: the match was by frame size alone, and the result says so
+    expect(third.cameraNamed).toBe(false);
     expect(third.report.frame.optics.focalLengthMm).toBe(200);
     const saved = JSON.parse(readFileSync(path.join(cfgDir, 'cameras.json'), 'utf8'));
     expect(saved.cameras[second.camera]).toEqual(entered);
+  });
+
+  it('forgets the optics of a camera on request, on disk too', async () => {
+    const before = await ok(session.analyze({ name: 'sim.png', bytes: png }));
+    expect(before.opticsFrom).toBe('remembered');
+    expect(await session.forgetOptics(before.camera)).toEqual({ ok: true, value: null });
+    const saved = JSON.parse(readFileSync(path.join(cfgDir, 'cameras.json'), 'utf8'));
+    expect(saved.cameras[before.camera]).toBeUndefined();
+    const after = await ok(session.analyze({ name: 'sim.png', bytes: png }));
+    expect(after.opticsFrom).toBe('none');
+    expect(after.rememberedOptics).toBeNull();
+    expect(after.opticsMissing.sort()).toEqual(['fNumber', 'focalLengthMm', 'pixelSizeUm']);
   });
 });

@@ -6,7 +6,7 @@ import { describe, expect, it } from 'vitest';
 import path from 'node:path';
 import * as check from '../../app/engine/validate.ts';
 import { stretchGrey } from '../../app/engine/stretch.ts';
-import { chooseOptics, cameraKey } from '../../app/engine/pipeline.ts';
+import { chooseOptics, cameraKey, cameraOf } from '../../app/engine/pipeline.ts';
 import { findElectron } from '../../app/electron-path.ts';
 
 describe('bridge arguments', () => {
@@ -76,17 +76,19 @@ describe('optics choice', () => {
   const fileHints = { hints: { from: 'header' as const, focalLengthMm: 300, pixelSizeUm: 3.76 } };
 
   it('fills only what the file lacks from memory, and entered values win', () => {
-    expect(chooseOptics(noHints, undefined, { focalLengthMm: 200, pixelSizeUm: 4.3, fNumber: 2.8 })).toEqual({ user: { focalLengthMm: 200, pixelSizeUm: 4.3, fNumber: 2.8 }, from: 'remembered' });
-    expect(chooseOptics(fileHints, undefined, { focalLengthMm: 200, fNumber: 2.8 })).toEqual({ user: { fNumber: 2.8 }, from: 'remembered' });
-    expect(chooseOptics(fileHints, { focalLengthMm: 250 }, { fNumber: 2.8 })).toEqual({ user: { focalLengthMm: 250, fNumber: 2.8 }, from: 'entered' });
-    expect(chooseOptics(fileHints, undefined, undefined)).toEqual({ user: {}, from: 'file' });
-    expect(chooseOptics(noHints, undefined, undefined)).toEqual({ user: {}, from: 'none' });
+    expect(chooseOptics(noHints, undefined, { focalLengthMm: 200, pixelSizeUm: 4.3, fNumber: 2.8 })).toEqual({ user: { focalLengthMm: 200, pixelSizeUm: 4.3, fNumber: 2.8 }, from: 'remembered', given: { focalLengthMm: 'remembered', pixelSizeUm: 'remembered', fNumber: 'remembered' } });
+    expect(chooseOptics(fileHints, undefined, { focalLengthMm: 200, fNumber: 2.8 })).toEqual({ user: { fNumber: 2.8 }, from: 'remembered', given: { fNumber: 'remembered' } });
+    expect(chooseOptics(fileHints, { focalLengthMm: 250 }, { fNumber: 2.8 })).toEqual({ user: { focalLengthMm: 250, fNumber: 2.8 }, from: 'entered', given: { focalLengthMm: 'typed', fNumber: 'remembered' } });
+    expect(chooseOptics(fileHints, undefined, undefined)).toEqual({ user: {}, from: 'file', given: {} });
+    expect(chooseOptics(noHints, undefined, undefined)).toEqual({ user: {}, from: 'none', given: {} });
   });
 
   it('names the camera, or the frame size when the file names none', () => {
     expect(cameraKey({ hints: { from: 'exif', camera: 'Canon EOS 6D' }, meta: {}, width: 10, height: 10 })).toBe('Canon EOS 6D');
     expect(cameraKey({ hints: null, meta: { INSTRUME: 'ZWO ASI2600MM' }, width: 10, height: 10 })).toBe('ZWO ASI2600MM');
     expect(cameraKey({ hints: null, meta: {}, width: 6248, height: 4176 })).toBe('unnamed camera, 6248 x 4176 px');
+    expect(cameraOf({ hints: null, meta: {}, width: 6248, height: 4176 }).named).toBe(false);
+    expect(cameraOf({ hints: null, meta: { INSTRUME: 'ZWO ASI2600MM' }, width: 10, height: 10 }).named).toBe(true);
   });
 });
 

@@ -44,7 +44,7 @@ describe('decodeFrame dispatch', () => {
 
   it('messages start with the file name and stay on one line', async () => {
     const e = await refusal(decodeFrame(new Uint8Array([1, 2, 3, 4, 5]), 'odd.bin'));
-    expect(e.message).toBe('odd.bin: unrecognised file format (expected FITS, TIFF, PNG or JPEG)');
+    expect(e.message).toBe('odd.bin: unrecognised file format (expected FITS, TIFF, PNG, JPEG or a camera raw)');
     expect(e.kind).toBe('unreadable');
   });
 

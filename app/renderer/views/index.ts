@@ -11,9 +11,10 @@ import { zonePsfView } from './zone-psf.ts';
 import { findingsView } from './findings.ts';
 import { compareView } from './compare.ts';
 import { sweepView } from './sweep.ts';
+import { focusPairView } from './focuspair.ts';
 
 export const VIEWS: readonly View[] = [
-  skyView, shapeView, sizeView, sensorSideView, zonePsfView, findingsView, compareView, sweepView,
+  skyView, shapeView, sizeView, sensorSideView, zonePsfView, findingsView, compareView, sweepView, focusPairView,
 ];
 
 export function viewNamed(name: string): View | undefined {
