@@ -117,6 +117,30 @@ describe('sensor edge-on: the drawn geometry is the report\'s', () => {
     expect(down.sections[0].ends[0].yPx).toBeCloseTo(H - 0.5, 6);
   });
 
+  it('draws a focus pair\'s settled tilt: the side farther from the lens behind focus, no mirror reading', () => {
+    // focus pair convention (core/series/focus-pair-types.ts): > 0 = that side farther from the lens
+    const signed = { acrossFrameUm: { x: 30, y: 0 }, acrossFrameErrUm: { x: 1, y: 1 }, axisErrDeg: 1, significant: true };
+    const r = tiltReport(0.001, 0);
+    const dd = sensorSideData(r, signed)!;
+    expect(dd.signResolved).toBe(true);
+    const right = dd.sections[0].ends.find((e) => e.name === 'right')!;
+    const left = dd.sections[0].ends.find((e) => e.name === 'left')!;
+    // the plane 30 µm across the width: +15 µm at the right edge, -15 µm at the left
+    expect(right.offset).toBeCloseTo(15, 6);
+    expect(left.offset).toBeCloseTo(-15, 6);
+    const svg = sensorSideSvg(r, { theme: DAY, signed });
+    expect(svg).not.toContain('class="sensor-mirror"');
+    expect(svg).toContain('right edge: 15.0 ± 0.5 µm behind focus');
+    expect(svg).toContain('left edge: 15.0 ± 0.5 µm in front of focus');
+    const action = [...svg.matchAll(/class="tilt-action">([^<]*)</g)].map((m) => m[1]).join(' ');
+    expect(action).toContain('the right edge sits behind focus (too far from the lens)');
+    expect(action).toContain('bring the right edge 30.0 ± 1.0 µm toward the lens');
+    const drawn = [...svg.matchAll(/data-name="(left|right)" data-offset="[^"]+" data-drawn-dx="([^"]+)"/g)];
+    // behind focus is drawn away from the lens (to the right of best focus)
+    expect(Number(drawn.find((m) => m[1] === 'right')![2])).toBeGreaterThan(0);
+    expect(Number(drawn.find((m) => m[1] === 'left')![2])).toBeLessThan(0);
+  });
+
   it('falls back to px of blur without optics, with no exaggeration claimed', () => {
     const r = tiltReport(0.008, -0.004);
     const t = (r.diagnosis as { tilt: Record<string, unknown> }).tilt;

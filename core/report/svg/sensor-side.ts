@@ -14,7 +14,18 @@ import { diagnosisOf, emptyFigure, esc, num, pm, r2, svgOpen, text } from './uti
 /** The severity scale in people's words (JSON keeps major | minor | info). */
 const SEVERITY_WORDS: Record<string, string> = { major: 'Act on it', minor: 'Worth a look', info: 'Note' };
 
-export interface SensorSideOptions { theme: Theme; width?: number }
+/**
+ * A tilt whose sign is settled (a focus pair, core/series/focus-pair.ts): signed focus changes
+ * across the width (+x) and height (+y), µm, > 0 = that side farther from the lens (behind focus).
+ */
+export interface SignedTilt {
+  acrossFrameUm: { x: number; y: number };
+  acrossFrameErrUm: { x: number; y: number };
+  axisErrDeg: number | null;
+  significant: boolean;
+}
+
+export interface SensorSideOptions { theme: Theme; width?: number; /** Draw this settled tilt instead of the single frame's. */ signed?: SignedTilt | null }
 
 /**
  * Gradient of the linear focus term per frame pixel, (gx, gy), from the across-frame changes and
@@ -75,18 +86,33 @@ function sideWords(dx: number, dy: number, flipY: boolean): string {
 }
 
 /** The geometry the figure draws, from the report alone; null when the diagnosis has no tilt fit. */
-export function sensorSideData(report: Report): SensorSideData | null {
-  const d = diagnosisOf(report);
-  if (!d) return null;
-  const t: TiltDiagnosis = d.tilt;
-  if (!t.supported || t.axisDeg === null) return null;
+export function sensorSideData(report: Report, signed: SignedTilt | null = null): SensorSideData | null {
   const W = report.frame.width;
   const H = report.frame.height;
-  const um = t.acrossFrameUm.x !== null && t.acrossFrameUm.y !== null;
-  const across = um ? t.acrossFrameUm : t.acrossFrameBlurPx;
-  const acrossErr = um ? t.acrossFrameErrUm : t.acrossFrameBlurErrPx;
-  const grad = planeGradient(t, across, W, H);
-  if (!grad) return null;
+  const d = diagnosisOf(report);
+  let t: Pick<TiltDiagnosis, 'axisDeg' | 'axisErrDeg' | 'significant' | 'signResolved' | 'corners'>;
+  let um: boolean;
+  let acrossErr: { x: number | null; y: number | null };
+  let grad: { gx: number; gy: number } | null;
+  if (signed) {
+    // the pair's signs are the plane's own: no axis quadrant to borrow
+    const gx = signed.acrossFrameUm.x / W;
+    const gy = signed.acrossFrameUm.y / H;
+    t = { axisDeg: (Math.atan2(gy, gx) * 180) / Math.PI, axisErrDeg: signed.axisErrDeg, significant: signed.significant, signResolved: true, corners: [] };
+    um = true;
+    acrossErr = signed.acrossFrameErrUm;
+    grad = gx === 0 && gy === 0 ? null : { gx, gy };
+  } else {
+    if (!d) return null;
+    const dt: TiltDiagnosis = d.tilt;
+    if (!dt.supported || dt.axisDeg === null) return null;
+    t = dt;
+    um = dt.acrossFrameUm.x !== null && dt.acrossFrameUm.y !== null;
+    const across = um ? dt.acrossFrameUm : dt.acrossFrameBlurPx;
+    acrossErr = um ? dt.acrossFrameErrUm : dt.acrossFrameBlurErrPx;
+    grad = planeGradient(dt, across, W, H);
+  }
+  if (!grad || t.axisDeg === null) return null;
   const pixel = report.frame.optics.pixelSizeUm;
   const alongPerPx = pixel && pixel > 0 ? pixel : 1;
   const flipY = report.frame.display?.topRow === 'last';
@@ -121,8 +147,9 @@ export function sensorSideData(report: Report): SensorSideData | null {
     const screenY = (e: SectionEnd) => (flipY ? -(e.yPx - cy) : e.yPx - cy);
     return { kind, angleDeg: deg, ends: screenY(e1) <= screenY(e2) ? [e1, e2] : [e2, e1] };
   };
-  const along = section('along', t.axisDeg);
-  const acrossS = section('across', t.axisDeg + 90);
+  const axis = t.axisDeg;
+  const along = section('along', axis);
+  const acrossS = section('across', axis + 90);
   const [a0, a1] = along.ends;
   const endToEnd = Math.abs(a0.offset - a1.offset);
   const endToEndErr = a0.offsetErr !== null && a1.offsetErr !== null ? a0.offsetErr + a1.offsetErr : null;
@@ -136,7 +163,7 @@ export function sensorSideData(report: Report): SensorSideData | null {
   }
   return {
     unit: um ? 'µm' : 'px blur', alongUnit: pixel && pixel > 0 ? 'µm' : 'px',
-    significant: t.significant, signResolved: t.signResolved, axisDeg: t.axisDeg, axisErrDeg: t.axisErrDeg,
+    significant: t.significant, signResolved: t.signResolved, axisDeg: axis, axisErrDeg: t.axisErrDeg,
     sections: [along, acrossS], endToEnd, endToEndErr, softer,
   };
 }
@@ -172,19 +199,20 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
   const { theme } = opts;
   const width = opts.width ?? 900;
   const label = 'Sensor tilt, seen edge-on';
+  const signed = opts.signed ?? null;
   const dg = diagnosisOf(report);
-  if (!dg) return emptyFigure(width, 300, label, 'no diagnosis in this report', theme);
-  if (!dg.tilt.supported) return emptyFigure(width, 300, label, dg.tilt.note ?? 'the stars do not support a focus fit', theme);
-  const d = sensorSideData(report);
+  if (!dg && !signed) return emptyFigure(width, 300, label, 'no diagnosis in this report', theme);
+  if (dg && !dg.tilt.supported && !signed) return emptyFigure(width, 300, label, dg.tilt.note ?? 'the stars do not support a focus fit', theme);
+  const d = sensorSideData(report, signed);
   if (!d) return emptyFigure(width, 300, label, 'no focus gradient could be fitted', theme);
-  const t = dg.tilt;
+  const note = signed ? null : dg?.tilt.note ?? null;
   const gap = 30;
   const panelW = (width - 3 * gap) / 2;
   const panelH = 300;
   const top = 86;
   const L = sensorSideLayout(d, panelW, panelH);
-  const curv = dg.curvature?.significant && dg.curvature.cornerDefocusUm !== null ? dg.curvature.cornerDefocusUm : null;
-  const noteLines = wrap(actionText(d, t, curv), Math.floor(width / 7));
+  const curv = !signed && dg?.curvature?.significant && dg.curvature.cornerDefocusUm !== null ? dg.curvature.cornerDefocusUm : null;
+  const noteLines = wrap(actionText(d, note, curv), Math.floor(width / 7));
   const height = top + panelH + 70 + noteLines.length * 16;
   let out = svgOpen(width, height, label, theme, 'sensor-side-svg');
   out = out.replace('<svg ', `<svg data-z-scale="${L.zScale}" data-s-scale="${L.sScale}" data-exaggeration="${Number.isFinite(L.exaggeration) ? L.exaggeration : ''}" data-significant="${d.significant}" data-sign-resolved="${d.signResolved}" `);
@@ -194,8 +222,8 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
     : `Light comes from the lens at the left. Offsets in px of blur (no pixel size or f-number: no µm).`;
   out += text(gap, 44, scaleWords, theme, { size: 12, fill: theme.muted });
   // the verdict on the findings' one scale (the tilt finding's severity), never a scale of its own
-  const sev = (report.findings ?? []).find((f) => f.code === 'TILT')?.severity;
-  const verdict = sev ? `${SEVERITY_WORDS[sev] ?? sev}: the sensor is tilted` : 'No tilt finding';
+  const sev = signed ? (signed.significant ? 'minor' : undefined) : (report.findings ?? []).find((f) => f.code === 'TILT')?.severity;
+  const verdict = signed ? (signed.significant ? 'The focus pair shows a tilt' : 'The focus pair shows no tilt that matters') : sev ? `${SEVERITY_WORDS[sev] ?? sev}: the sensor is tilted` : 'No tilt finding';
   out += text(gap, 62, `${verdict}, ${pm(d.endToEnd, d.endToEndErr, 1)} ${d.unit} from edge to edge along the axis.`, theme, { size: 13, fill: sev === 'major' ? theme.bad : sev === 'minor' ? theme.selected : theme.good, cls: 'tilt-verdict' });
   d.sections.forEach((s, k) => {
     const X = gap + k * (panelW + gap);
@@ -206,18 +234,23 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
   return out + '</svg>';
 }
 
-function actionText(d: SensorSideData, t: TiltDiagnosis, curvatureUm: number | null): string {
+function actionText(d: SensorSideData, note: string | null, curvatureUm: number | null): string {
   const [a, b] = d.sections[0].ends;
   const amount = `${pm(d.endToEnd, d.endToEndErr, 1)} ${d.unit}`;
   const parts: string[] = [];
-  if (d.significant) {
+  if (d.significant && d.signResolved) {
+    // settled: a positive offset is behind focus, farther from the lens
+    const far = a.offset > b.offset ? a : b;
+    const near = far === a ? b : a;
+    parts.push(`What to turn: the ${far.name} edge sits behind focus (too far from the lens) and the ${near.name} edge in front of it; bring the ${far.name} edge ${amount} toward the lens against the ${near.name} edge.`);
+  } else if (d.significant) {
     const soft = d.softer ?? a.name;
     const sharp = soft === a.name ? b.name : a.name;
     parts.push(`What to turn: move the ${soft} edge ${amount} toward best focus against the ${sharp} edge (the ${soft} side's stars are the larger).`);
   } else parts.push(`Nothing to turn: the change of focus across the sensor is within what the stars can tell, or too small to matter.`);
   if (!d.signResolved) parts.push('One frame tells how far each edge is from focus, not on which side: the dotted sensor is the mirror reading, just as possible. Two frames a known focus step apart (a focus pair) tell which edge is nearer the lens.');
   if (curvatureUm !== null) parts.push(`Field curvature also bends best focus, by about ${num(curvatureUm, 0)} µm at the corners against the centre; it is symmetric about the centre, so no tilt of the sensor removes it (not drawn).`);
-  if (t.note) parts.push(t.note.replace(/\bum\b/g, 'µm').replace(/\+-/g, '±').replace(/\bdeg\b/g, '°'));
+  if (note) parts.push(note.replace(/\bum\b/g, 'µm').replace(/\+-/g, '±').replace(/\bdeg\b/g, '°'));
   return parts.join(' ');
 }
 
@@ -264,7 +297,8 @@ function panel(s: SensorSection, d: SensorSideData, L: SensorSideLayout, X: numb
     const x = zx(e.offset);
     out += `<g class="edge" data-name="${esc(e.name)}" data-offset="${r2(e.offset * 1000) / 1000}" data-drawn-dx="${r2(x - zc)}">`;
     out += `<line x1="${r2(zc)}" y1="${r2(y)}" x2="${r2(x)}" y2="${r2(y)}" stroke="${theme.vector}" stroke-width="1.5"/>`;
-    const words = `${e.name} edge: ${e.offset === 0 ? `0 ${d.unit}` : `${pm(Math.abs(e.offset), e.offsetErr, 1)} ${d.unit}`}`;
+    const side = d.signResolved && e.offset !== 0 ? (e.offset > 0 ? ' behind focus' : ' in front of focus') : '';
+    const words = `${e.name} edge: ${e.offset === 0 ? `0 ${d.unit}` : `${pm(Math.abs(e.offset), e.offsetErr, 1)} ${d.unit}${side}`}`;
     // above the upper end, below the lower one, centred on the edge and kept inside the panel
     const half = (words.length * 7) / 2;
     const tx = Math.min(Math.max(x, X + 6 + half), X + w - 6 - half);
