@@ -3,16 +3,20 @@
  * (issue 12 item 8), "Sensor tilt" (the sensor seen edge-on) and "Stacked stars", on the demo frame, day and night.
  * Checked on the DOM against the report (the JSON export) and on rendered pixels: each stack's
  * centre is its brightest part, night mode is red on black. Screenshots of both modes go to
- * test-output/screenshots/ (zones-*).
+ * test-output/screenshots/ (zones-*). The focus pair's settled picture is checked against the
+ * simulator's scene (the right side 40 µm behind focus across the width).
  */
 import { describe, expect, it, beforeAll, afterAll } from 'vitest';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import sharp from 'sharp';
 import type { BrowserContext, Page } from 'playwright-core';
 import type { Report } from '../../core/report/types.ts';
 import { sensorSideData } from '../../core/report/svg/sensor-side.ts';
+import { renderScene } from '../../core/simulate/render.ts';
+import { parseScene } from '../../core/simulate/scene.ts';
+import { fitsBytes } from '../../core/simulate/write.ts';
 import { launch, shot, startServe, type Served } from './browser.ts';
 
 declare const document: any;
@@ -128,5 +132,41 @@ describe('Stacked stars', () => {
     await shot(page, 'zones-stacks-night');
     await setNight(false);
     expect(pageErrors).toEqual([]);
+  });
+});
+
+/** Scene truth of the pair: the focus error grows by 40 µm from the left edge to the right (right side behind focus). */
+const PAIR_TILT_X_UM = 40;
+const PAIR_STEP_UM = 40;
+
+describe('Sensor tilt from a focus pair', () => {
+  it('names the right edge behind focus and the left in front, as the scene has them', async () => {
+    const optics = { pixelSizeUm: 4.5, focalLengthMm: 400, fNumber: 5 };
+    const frame = (seed: number, defocus: number) => fitsBytes(renderScene(parseScene({
+      schema: 'skyloupe.scene/1', width: 900, height: 600, seed, stars: { count: 450 }, optics,
+      psf: { kind: 'optics', seeing: { fwhmPx: 2.4 }, aberrations: { tiltXUmAcross: PAIR_TILT_X_UM, defocusCenterUm: defocus } },
+    })));
+    const a = path.join(dir, 'zpair-1.fits');
+    const b = path.join(dir, 'zpair-2.fits');
+    writeFileSync(a, frame(171, 0));
+    writeFileSync(b, frame(172, PAIR_STEP_UM));
+    await page.click('#tab-focuspair');
+    await page.setInputFiles('#pair-first-input', a);
+    await page.waitForFunction(() => (document.querySelector('#pair-slot-first .slot-name')?.textContent ?? '').includes('zpair-1'), null, { timeout: 90_000 });
+    await page.setInputFiles('#pair-second-input', b);
+    await page.waitForFunction(() => (document.querySelector('#pair-slot-second .slot-name')?.textContent ?? '').includes('zpair-2'), null, { timeout: 90_000 });
+    await page.fill('#pair-step', String(PAIR_STEP_UM));
+    await page.click('#btn-pair-run');
+    await page.waitForSelector('#pair-result', { timeout: 60_000 });
+    expect(await page.getAttribute('#pair-result', 'data-sign-resolved')).toBe('true');
+    await page.waitForSelector('svg#sensor-side-svg[data-sign-resolved="true"]');
+    const words = await page.$$eval('svg#sensor-side-svg g.section[data-kind="along"] text.edge-words', (els: any[]) => els.map((e) => e.textContent));
+    expect(words.find((w: string) => w.startsWith('right edge'))).toContain('behind focus');
+    expect(words.find((w: string) => w.startsWith('left edge'))).toContain('in front of focus');
+    // each edge about half the scene's 40 µm from the centre's focus (25 %, as the focus pair's own test allows)
+    for (const w of words) expect(Math.abs(Number(/: ([\d.]+)/.exec(w)![1]) - PAIR_TILT_X_UM / 2)).toBeLessThan(0.25 * PAIR_TILT_X_UM);
+    expect(await page.locator('svg#sensor-side-svg line.sensor-mirror').count()).toBe(0);
+    await page.locator('svg#sensor-side-svg').scrollIntoViewIfNeeded();
+    await shot(page, 'zones-sensor-side-focus-pair-day');
   });
 });
