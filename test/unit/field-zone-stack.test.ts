@@ -178,3 +178,17 @@ describe('zone stack of undersampled stars', () => {
     expect(note).toContain('undersampled');
   });
 });
+
+describe('zone stack on a colour-filter mosaic plane', () => {
+  it('maps frame coordinates to 2x2 superpixels and gives sizes in frame px (plane.ts: scale 2, offset 0.5)', () => {
+    const shape: Shape = { model: 'gaussian', fwhmMajorPx: 3, fwhmMinorPx: 3, thetaDeg: 0, beta: 0 };
+    const rec = recordedFwhm({ ...shape, x: 0, y: 0, fluxE: 1 });
+    const f = frame(21, shape, 30000);
+    // the same stars described in full-resolution frame coordinates of a mosaic twice the size
+    const stars = f.stars.map((s) => ({ ...s, x: 2 * s.x + 0.5, y: 2 * s.y + 0.5, fwhmPx: 2 * s.fwhmPx }));
+    const z = zonePsfs({ ...f.plane, scale: 2, offset: 0.5 }, stars, { width: 2 * SIDE, height: 2 * SIDE, displayTopRow: 'first', cols: 1, rows: 1 });
+    expect(z.pixelScale).toBe(2);
+    expect(z.zones[0].stacked).toBe(25);
+    expect(Math.abs(z.zones[0].fwhmPx! / (2 * rec.major) - 1)).toBeLessThan(0.03);
+  });
+});
