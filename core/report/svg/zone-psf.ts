@@ -86,7 +86,7 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
     const Y = head + gap + drow * (cell + words + 16 + gap);
     out += `<g class="zone-psf" data-zone="${esc(z.name)}" data-col="${z.col}" data-row="${z.row}" data-stars="${z.stacked}" tabindex="0" role="button" aria-label="${esc(`${NAME[z.name] ?? z.name}: ${zoneWords(z).join(', ')}`)}">`;
     out += text(X, Y - 4, NAME[z.name] ?? z.name, theme, { size: 12, weight: '600' });
-    out += `<rect x="${r2(X)}" y="${r2(Y)}" width="${r2(cell)}" height="${r2(cell)}" fill="${theme.ramp(0)}" stroke="${theme.frame}" stroke-width="1"/>`;
+    out += `<rect x="${r2(X)}" y="${r2(Y)}" width="${r2(cell)}" height="${r2(cell)}" fill="${theme.ramp(0)}" stroke="none"/>`;
     const img = displayedStack(z, side, flipY);
     if (img) {
       out += '<g shape-rendering="crispEdges">';
@@ -112,6 +112,8 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
     } else {
       out += text(X + cell / 2, Y + cell / 2, 'no clean stars', theme, { size: 12, anchor: 'middle', fill: theme.muted });
     }
+    // the border last, so the pixels do not cover it
+    out += `<rect class="zone-border" x="${r2(X)}" y="${r2(Y)}" width="${r2(cell)}" height="${r2(cell)}" fill="none" stroke="${theme.frame}" stroke-width="1"/>`;
     const [w1, w2] = zoneWords(z);
     out += text(X, Y + cell + 16, w1, theme, { size: 11, cls: 'zone-words' });
     out += text(X, Y + cell + 31, w2, theme, { size: 11, fill: theme.muted, cls: 'zone-words' });
