@@ -18,6 +18,8 @@ import { confirmRegion, findDataRegion, inDataRegion, scaleRegion, type DataRegi
 import { pixelShapeFromHeader, type PixelShape } from './diagnose/pixel-shape.ts';
 import { analysisWithSky, type SkyStepOptions } from './sky/step.ts';
 import type { AstrometrySection } from './sky/section.ts';
+import { zonePsfs, type ZonePsfSection } from './field/zone-stack.ts';
+import { isUsable } from './field/quantities.ts';
 
 export interface AnalyzeOptions {
   user?: UserOptics;
@@ -77,6 +79,8 @@ export interface Analysis {
   readonly timings: Readonly<Record<string, number>>;
   /** Where the frame is on the sky and what the lens does to geometry; absent when the step was skipped. */
   readonly astrometry?: AstrometrySection;
+  /** The field's PSF per zone: each 3 x 3 zone's clean stars aligned and stacked (field/zone-stack.ts). */
+  readonly zonePsf?: ZonePsfSection;
 }
 
 /** Below this SNR a star is measured but kept out of the field statistics. */
@@ -165,7 +169,14 @@ export async function analyzeFrame(frame: Frame, opts: AnalyzeOptions = {}): Pro
       onProgress: (f) => progress('measure', f),
     });
     lap('measure');
-    const result = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData }, saturation);
+    const finished = finish(frame, cfa, optics, plane, sky, det, subset, measured, timings, lap, progress, { region, outsideData }, saturation);
+    // the stacks need the sky-subtracted plane, which lives only here
+    const zonePsf = zonePsfs(
+      { data: residual, width: plane.width, height: plane.height, scale: plane.scale, offset: plane.offset, skySigma: sky.globalSigma },
+      finished.stars, { width: frame.width, height: frame.height, displayTopRow: frame.displayTopRow, clean: (s) => isUsable(s) && Number.isFinite(s.fwhmPx) },
+    );
+    lap('zone-psf');
+    const result: Analysis = { ...finished, zonePsf };
     if (opts.solve === false) return result;
     // the solve runs on this thread without awaiting: let a pending cancel arrive first, and after
     await new Promise((r) => setTimeout(r, 0));

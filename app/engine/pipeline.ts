@@ -10,7 +10,7 @@ import type { Report } from '../../core/report/types.ts';
 import type { Frame } from '../../core/frame/types.ts';
 import { diagnoseExtras } from './diagnosis.ts';
 import { chooseStretch } from './stretch.ts';
-import { makePreview, makeTiles } from './images.ts';
+import { makePreview } from './images.ts';
 import type { AnalysisResult, OpticsField, OpticsInput } from '../preload/bridge.ts';
 import { fromAnalysis, type FrameInput } from '../../core/series/index.ts';
 import { identityOf } from '../../core/series/identity.ts';
@@ -89,12 +89,11 @@ export async function runPipeline(input: PipelineInput): Promise<PipelineOutput>
   const img = { data: frame.data, width: frame.width, height: frame.height, flipY, sky: analysis.sky };
   const stretch = chooseStretch(frame.data, analysis.sky);
   const preview = await makePreview(img, stretch);
-  const tiles = await makeTiles(img, stretch);
   progress('done', 1);
   return {
     result: {
       name: input.name, camera, cameraNamed, opticsFrom: from, opticsGiven: given, rememberedOptics: input.remembered[camera] ?? null,
-      opticsMissing: missingOptics(report), report, preview, tiles,
+      opticsMissing: missingOptics(report), report, preview,
     },
     pixels: { data: frame.data, width: frame.width, height: frame.height, flipY },
     // the camera and a hash of the pixels let compare and sweep refuse mixed or repeated frames

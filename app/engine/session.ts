@@ -278,7 +278,7 @@ export class EngineSession {
       case 'csv': return { ok: true, value: { filename: `${stem}.stars.csv`, mime: 'text/csv', body: starsCsv(r.report) } };
       case 'html': return {
         ok: true,
-        value: { filename: `${stem}.skyloupe.html`, mime: 'text/html', body: reportHtml(r.report, { name: r.name, preview: r.preview, tiles: r.tiles }) },
+        value: { filename: `${stem}.skyloupe.html`, mime: 'text/html', body: reportHtml(r.report, { name: r.name, preview: r.preview }) },
       };
     }
   }

@@ -123,7 +123,7 @@ function registerBridge(): void {
 }
 
 function buildMenu(): void {
-  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['focus', 'Focus plane'], ['corners', 'Corners'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep'], ['focuspair', 'Focus pair'], ['distortion', 'Distortion'], ['through-focus', 'Through focus']];
+  const views: [string, string][] = [['sky', 'Sky'], ['shape', 'Shape map'], ['size', 'Size map'], ['sensor', 'Sensor tilt'], ['stacks', 'Stacked stars'], ['findings', 'Findings'], ['compare', 'Compare'], ['sweep', 'Spacer sweep'], ['focuspair', 'Focus pair'], ['distortion', 'Distortion'], ['through-focus', 'Through focus']];
   const openRecent = async (p: string) => {
     try {
       send('open', await readChosen(p));

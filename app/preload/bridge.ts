@@ -5,14 +5,14 @@
  * cloneable data; failures come back as values (an Error's fields do not survive IPC).
  */
 import type { Report, ReportStar } from '../../core/report/types.ts';
-import type { Preview, Tile, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
+import type { Preview, CompareResult, SweepResult } from '../../core/report/svg/types.ts';
 import type { StampInput } from '../../core/report/svg/stamp.ts';
 import type { ThroughFocusResult } from '../../core/series/through-focus.ts';
 import type { FocusPairResult } from '../../core/series/focus-pair-types.ts';
 
 export type { FocusPairResult } from '../../core/series/focus-pair-types.ts';
 
-export type { ImageRef, Preview, Tile, TileName, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
+export type { ImageRef, Preview, Better, CompareZoneRow, CompareResult, SweepPointRow, SweepResult } from '../../core/report/svg/types.ts';
 
 export const BRIDGE_VERSION = 1;
 
@@ -59,7 +59,6 @@ export interface AnalysisResult {
   opticsMissing: OpticsField[];
   report: Report;
   preview: Preview;
-  tiles: Tile[];
   elapsedMs: number;
 }
 

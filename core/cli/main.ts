@@ -192,7 +192,7 @@ async function analyzeCommand(argv: string[], out: (s: string) => void): Promise
     else await writeFileAtomic(values.csv, starsCsv(report));
   }
   if (typeof values.html === 'string') {
-    // the same pictures as the desktop program: the stretched sky and the close-ups
+    // the same picture as the desktop program: the stretched sky (close-ups are the zone stacks in the report)
     const pictures = await framePictures({ data: frame.data, width: frame.width, height: frame.height, flipY: frame.displayTopRow === 'last', sky: analysis.sky });
     await writeFileAtomic(values.html, reportHtml(report, { name: path.basename(framePath), ...pictures }));
   }

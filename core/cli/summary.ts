@@ -39,6 +39,7 @@ export function formatSummary(r: Report): string {
   if (s.center.medianFwhmPx && s.corners.medianFwhmPx) {
     lines.push(`corner/centre FWHM ratio ${(s.corners.medianFwhmPx / s.center.medianFwhmPx).toFixed(2)}`);
   }
+  lines.push(...zoneStackLines(r));
   if (r.astrometry) lines.push(...skySummaryLines(r.astrometry));
   if (!plate) lines.push('tip: give --focal-length and --pixel-size to get arcseconds and micrometres');
   if (r.findings && r.findings.length) {
@@ -46,4 +47,22 @@ export function formatSummary(r: Report): string {
     lines.push(formatFindings(r.findings as Parameters<typeof formatFindings>[0]));
   }
   return lines.join('\n');
+}
+
+/** The zone stacks (report.zonePsf) as a grid in the frame's displayed orientation. */
+function zoneStackLines(r: Report): string[] {
+  const zp = r.zonePsf;
+  if (!zp || !zp.zones.some((z) => z.stacked > 0)) return [];
+  const flip = r.frame.display?.topRow === 'last';
+  const cell = (col: number, row: number) => {
+    const z = zp.zones.find((q) => q.col === col && q.row === row);
+    return !z || z.stacked === 0 ? 'no stars'.padEnd(15) : `${z.fwhmPx === null ? '–' : z.fwhmPx.toFixed(2)} ${z.ellipticity === null ? '–' : z.ellipticity.toFixed(3)} ${String(z.stacked).padStart(4)}`.padEnd(15);
+  };
+  const out = ['stacked stars per zone, as displayed (FWHM px and ellipticity of each stack, stars in it):'];
+  for (let k = 0; k < zp.rows; k++) {
+    const row = flip ? zp.rows - 1 - k : k;
+    out.push('  ' + Array.from({ length: zp.cols }, (_, c) => cell(c, row)).join(' | ').trimEnd());
+  }
+  if (zp.note) out.push(`  note: ${zp.note}`);
+  return out;
 }

@@ -123,6 +123,7 @@ export function buildReport(a: Analysis, path: string, extra: Pick<Report, 'diag
     stars: withSky(a.stars.map(reportStar), a),
     ...extra,
     ...(a.astrometry ? { astrometry: a.astrometry } : {}),
+    ...(a.zonePsf ? { zonePsf: a.zonePsf } : {}),
     timings: a.timings,
   };
 }

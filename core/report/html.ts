@@ -4,14 +4,14 @@
  * No scripts, no outside resources.
  */
 import type { Report } from './types.ts';
-import type { Preview, Tile } from './svg/types.ts';
+import type { Preview } from './svg/types.ts';
 import { PRINT, type Theme } from './svg/theme.ts';
 import { esc } from './svg/util.ts';
 import { skySvg } from './svg/sky.ts';
 import { shapeSvg } from './svg/shape.ts';
 import { sizeSvg } from './svg/size.ts';
-import { focusSvg } from './svg/focus.ts';
-import { cornersSvg } from './svg/corners.ts';
+import { sensorSideSvg } from './svg/sensor-side.ts';
+import { zonePsfSvg } from './svg/zone-psf.ts';
 import { findingsHtml, summaryHtml } from './svg/panels.ts';
 import { QUANTITIES, findingsCountWords } from './words.ts';
 import { astrometryTableHtml, distortionFigureData, distortionSvg } from './svg/distortion.ts';
@@ -21,7 +21,6 @@ export interface HtmlReportOptions {
   name?: string;
   /** The stretched frame and the corner crops (core/report/pictures.ts; the CLI and the desktop program both make them). */
   preview?: Preview | null;
-  tiles?: Tile[] | null;
   theme?: Theme;
 }
 
@@ -67,13 +66,13 @@ export function reportHtml(report: Report, opts: HtmlReportOptions = {}): string
   add('size', 'Size maps', fig(sizeSvg(report, { theme, quantity: 'fwhmPx', width: 900, id: 'r-fwhm-px' }), 'FWHM in pixels, smooth fit over the field, with contours.')
     + fig(sizeSvg(report, { theme, quantity: 'fwhmArcsec', width: 900, id: 'r-fwhm-as' }), 'FWHM in arcseconds (needs focal length and pixel size).')
     + fig(sizeSvg(report, { theme, quantity: 'ellipticity', width: 900, id: 'r-ell' }), `${cap(QUANTITIES.sharedEllipticity.label)} 1 − b/a over the field, with contours: the elongation the stars of each part of the frame have in common (their e1, e2 averaged as vectors, so each star's noise averages out).`));
-  add('focus', 'Focus plane', fig(focusSvg(report, { theme, width: 900 }), 'The linear part of the focus error over the sensor, the tilt axis, and the focus error found at each corner.'));
+  add('sensor', 'Sensor tilt, seen edge-on', fig(sensorSideSvg(report, { theme, width: 900 }), 'The sensor seen from the side in two cuts through the frame centre, along the tilt axis and across it, against best focus: each edge\'s focus offset in µm (drawn exaggerated, as stated).'));
   if (report.astrometry) {
     const dd = distortionFigureData(report);
     add('lens', 'Sky position and lens geometry', astrometryTableHtml(report)
       + (dd ? fig(distortionSvg(dd, { theme, width: 900 }), `A square grid as the lens draws it (blue) over the ideal grid (grey), and the measured shift of each matched star from where a distortion-free lens would put it; all shifts drawn ${dd.exaggeration}× larger. The ring marks the optical centre.`) : ''));
   }
-  add('corners', 'Corners', fig(cornersSvg(report, opts.tiles ?? null, { theme, width: 900 }), `The four corners and the centre at one zoom, full resolution; ellipses are twice the fitted FWHM; beneath each, the ${QUANTITIES.medianEllipticity.label} of the stars in it.`));
+  add('stacks', 'Stacked stars per zone', fig(zonePsfSvg(report, { theme, width: 900 }), 'Each zone\'s clean stars aligned on their fitted centres (Lanczos-3) and averaged with a 3-sigma clip; FWHM, HFD and ellipticity measured on each stack.'));
   const toc = '<nav class="toc" aria-label="Contents"><h2>Contents</h2><ol>' + sections.map((x) => `<li><a href="#${x.id}">${x.title}</a></li>`).join('') + '</ol></nav>';
   const parts: string[] = [];
   parts.push(`<h1>Star shapes across the field: ${esc(name)}</h1>`);

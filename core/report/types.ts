@@ -3,6 +3,7 @@ import type { StarFlag } from '../stars/types.ts';
 import type { DataRegion } from '../image/data-region.ts';
 import type { PixelShape } from '../diagnose/pixel-shape.ts';
 import type { AstrometrySection } from '../sky/section-types.ts';
+import type { ZonePsfSection } from '../field/zone-psf-types.ts';
 
 export const REPORT_SCHEMA = 'skyloupe.report/1';
 
@@ -93,5 +94,7 @@ export interface Report {
   field?: unknown;
   /** Plate solution, lens model and distortion (absent when the step was skipped). */
   astrometry?: AstrometrySection;
+  /** The field's PSF per 3 x 3 zone: clean stars aligned on their centres and stacked, measured (skyloupe.zonepsf/1). */
+  zonePsf?: ZonePsfSection;
   timings: Record<string, number>;
 }

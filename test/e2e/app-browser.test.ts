@@ -204,29 +204,27 @@ describe('the demo frame in the browser', () => {
     await shot(page, '03-size-ellipticity');
   });
 
-  it('draws the focus plane with the corner values of the diagnosis', async () => {
+  it('draws the sensor edge-on, cut along the diagnosis\'s tilt axis', async () => {
     await page.keyboard.press('4');
-    await page.waitForSelector('svg#focus-svg');
-    const tilt = (report.diagnosis as { tilt: { corners: { name: string; defocusUm: number | null }[]; signResolved: boolean } }).tilt;
-    const labels = await page.$$eval('svg#focus-svg .corner-value', (els: any[]) => els.map((e) => e.textContent));
-    expect(labels).toHaveLength(4);
-    for (const c of tilt.corners) expect(labels.some((l: string) => l.startsWith(`${c.name}: ${c.defocusUm!.toFixed(1)}`))).toBe(true);
-    expect(await page.getAttribute('svg#focus-svg', 'data-sign-resolved')).toBe(String(tilt.signResolved));
-    await shot(page, '04-focus-plane');
+    await page.waitForSelector('svg#sensor-side-svg');
+    const tilt = (report.diagnosis as { tilt: { axisDeg: number; signResolved: boolean } }).tilt;
+    expect(await page.locator('svg#sensor-side-svg g.section').count()).toBe(2);
+    // the cut's title names the report's axis, an axis (mod 180) written in (-90, 90]
+    const a = ((tilt.axisDeg % 180) + 180) % 180;
+    const title = await page.textContent('svg#sensor-side-svg g.section[data-kind="along"] > text');
+    expect(title).toContain(`(${Math.round(a > 90 ? a - 180 : a)}°`);
+    expect(await page.getAttribute('svg#sensor-side-svg', 'data-sign-resolved')).toBe(String(tilt.signResolved));
+    expect(await page.locator('svg#sensor-side-svg g.edge').count()).toBe(4);
+    await shot(page, '04-sensor-edge-on');
   });
 
-  it('shows the corners beside the centre with the stars inside each crop', async () => {
+  it('shows the stacked stars of each zone with the report\'s counts', async () => {
     await page.keyboard.press('5');
-    await page.waitForSelector('svg#corners-svg');
-    const { width: W, height: H } = report.frame;
-    // crop side min(128, W/4, H/4); the centre crop starts at floor((W - S)/2), floor((H - S)/2)
-    const S = Math.floor(Math.min(128, W / 4, H / 4));
-    const x0 = Math.floor((W - S) / 2);
-    const y0 = Math.floor((H - S) / 2);
-    const inside = report.stars.filter((s) => s.flags.length === 0 && s.x >= x0 - 0.5 && s.x < x0 + S - 0.5 && s.y >= y0 - 0.5 && s.y < y0 + S - 0.5).length;
-    expect(Number(await page.getAttribute('g.tile[data-tile="center"]', 'data-stars'))).toBe(inside);
-    expect(await page.locator('g.tile').count()).toBe(5);
-    await shot(page, '05-corners');
+    await page.waitForSelector('svg#zone-psf-svg');
+    const zp = report.zonePsf!;
+    expect(await page.locator('svg#zone-psf-svg g.zone-psf').count()).toBe(zp.zones.length);
+    for (const z of zp.zones) expect(Number(await page.getAttribute(`svg#zone-psf-svg g.zone-psf[data-zone="${z.name}"]`, 'data-stars'))).toBe(z.stacked);
+    await shot(page, '05-stacked-stars');
   });
 
   it('switches to red night mode and back', async () => {
@@ -236,9 +234,9 @@ describe('the demo frame in the browser', () => {
     expect(await page.getAttribute('svg#sky-svg', 'data-theme')).toBe('night');
     await shot(page, '07-night-sky');
     await page.keyboard.press('4');
-    await shot(page, '07-night-focus-plane');
+    await shot(page, '07-night-sensor-edge-on');
     await page.keyboard.press('n');
-    expect(await page.getAttribute('svg#focus-svg', 'data-theme')).toBe('day');
+    expect(await page.getAttribute('svg#sensor-side-svg', 'data-theme')).toBe('day');
   });
 });
 

@@ -59,14 +59,15 @@ describe('analysis in the worker', () => {
     r = await ok(session.analyze({ name: 'sim.fits', bytes: fits }, undefined, (p) => seen.push(p)));
   });
 
-  it('returns the report, the preview and five crops', async () => {
+  it('returns the report with its zone stacks, and the preview', async () => {
     expect(r.report.frame.width).toBe(W);
     expect(r.report.stars.length).toBeGreaterThan(100);
     expect(r.report.findings).toBeDefined();
     expect(r.opticsFrom).toBe('file');
     const meta = await sharp(Buffer.from(r.preview.href.split(',')[1], 'base64')).metadata();
     expect([meta.width, meta.height]).toEqual([W / r.preview.factor, H / r.preview.factor]);
-    expect(r.tiles.map((t) => t.name).sort()).toEqual(['bottom-left', 'bottom-right', 'center', 'top-left', 'top-right']);
+    // the close-ups are the report's own zone stacks (core/field/zone-stack.ts), 3 x 3 zones
+    expect(r.report.zonePsf?.zones).toHaveLength(9);
   });
 
   it('reports progress that only grows and ends done', () => {

@@ -15,8 +15,9 @@ import { diagnose } from '../../core/diagnose/index.ts';
 import { buildReport } from '../../core/report/build.ts';
 import type { Report } from '../../core/report/types.ts';
 import { reportHtml } from '../../core/report/html.ts';
+import { formatSummary } from '../../core/cli/summary.ts';
 import {
-  DAY, NIGHT, PRINT, skySvg, shapeSvg, shapeVectors, sizeSvg, heatGrid, focusSvg, planeGradient, cornersSvg, stampSvg,
+  DAY, NIGHT, PRINT, skySvg, shapeSvg, shapeVectors, sizeSvg, heatGrid, sensorSideSvg, sensorSideData, planeGradient, zonePsfSvg, stampSvg,
   findingsHtml, frameMap, ellipticityFromDistortion, elongationFromDistortion, elongationFromEllipticity, esc, sweepSvg,
 } from '../../core/report/svg/index.ts';
 
@@ -144,24 +145,41 @@ describe('focus plane', () => {
     expect(h.gy).toBeLessThan(0);
   });
 
-  it('labels the four corners with the diagnosis values', () => {
-    const svg = focusSvg(report, { theme: DAY });
-    const d = report.diagnosis as { tilt: { corners: { name: string; defocusUm: number | null }[] } };
-    expect(d.tilt.corners.length).toBe(4);
-    for (const c of d.tilt.corners) expect(svg).toContain(`${c.name}: ${c.defocusUm!.toFixed(1)}`);
+  it('cuts the sensor along the diagnosis axis and writes its edge-to-edge µm', () => {
+    const svg = sensorSideSvg(report, { theme: DAY });
+    const d = sensorSideData(report)!;
+    const t = (report.diagnosis as { tilt: { axisDeg: number } }).tilt;
+    expect(d.sections[0].angleDeg).toBe(t.axisDeg);
+    expect(svg).toContain(`${d.endToEnd.toFixed(1)}`);
+    expect(svg).toContain('µm');
   });
 });
 
-describe('corners, stamps and panels', () => {
-  it('draws the crops at one whole-number zoom', () => {
-    const tiles = (['top-left', 'top-right', 'center', 'bottom-left', 'bottom-right'] as const).map((name, i) => ({
-      name, x0: i * 10, y0: 0, w: 100, h: 100, href: 'data:image/png;base64,AA==', width: 100, height: 100,
-    }));
-    const svg = cornersSvg(report, tiles, { theme: DAY, width: 980 });
-    const widths = [...svg.matchAll(/<image [^>]*width="([\d.]+)"/g)].map((m) => Number(m[1]));
-    expect(widths).toHaveLength(5);
-    expect(new Set(widths).size).toBe(1);
-    expect(Number.isInteger(Number(attr(svg, 'data-zoom')))).toBe(true);
+describe('zone stacks, stamps and panels', () => {
+  it('draws the frame\'s zone stacks, each with the stars it holds', () => {
+    const svg = zonePsfSvg(report, { theme: DAY, width: 980 });
+    const zp = report.zonePsf!;
+    expect(zp.zones).toHaveLength(9);
+    // every stacked star is a clean star of its zone
+    for (const z of zp.zones) {
+      expect(svg).toContain(`data-zone="${z.name}" data-col="${z.col}" data-row="${z.row}" data-stars="${z.stacked}"`);
+      for (const i of z.members) {
+        const s = report.stars[i];
+        expect(s.flags).toEqual([]);
+        expect(s.x).toBeGreaterThanOrEqual(z.bounds.x0);
+        expect(s.x).toBeLessThan(z.bounds.x1);
+        expect(s.y).toBeGreaterThanOrEqual(z.bounds.y0);
+        expect(s.y).toBeLessThan(z.bounds.y1);
+      }
+    }
+    // the stack of many stars is as wide as its stars (median FWHM of the zone's members, within 10 %)
+    const centre = zp.zones.find((z) => z.name === 'centre')!;
+    // one value everywhere: the CLI prints the same stack numbers (centre: the middle row, middle cell)
+    const cli = formatSummary(report).split('\n');
+    const head = cli.findIndex((l) => l.startsWith('stacked stars per zone'));
+    expect(cli[head + 2].split('|')[1].trim().split(/\s+/)).toEqual([centre.fwhmPx!.toFixed(2), centre.ellipticity!.toFixed(3), String(centre.stacked)]);
+    const fw = centre.members.map((i) => report.stars[i].fwhmPx).sort((a, b) => a - b);
+    expect(Math.abs(centre.fwhmPx! / fw[Math.floor(fw.length / 2)] - 1)).toBeLessThan(0.1);
   });
 
   it('stretches a stamp from its lowest (black) to its highest pixel (white)', () => {
@@ -205,8 +223,10 @@ describe('HTML report', () => {
     for (const u of urls) expect(u.startsWith('data:') || u.startsWith('#') || u.startsWith('url(#')).toBe(true);
     expect(html).toContain("Content-Security-Policy");
     expect(html).toContain('@media print');
-    // the figures: sky, shape, three size maps, focus plane, corners
+    // the figures: sky, shape, three size maps, the sensor edge-on, the zone stacks
     expect((html.match(/<svg /g) ?? []).length).toBe(7);
+    expect(html).toContain('id="sensor-side-svg"');
+    expect(html).toContain('id="zone-psf-svg"');
     const json = html.match(/<script type="application\/json" id="skyloupe-report">([\s\S]*?)<\/script>/)![1];
     const back = JSON.parse(json) as Report;
     expect(back.summary).toEqual(report.summary);

@@ -1,12 +1,11 @@
 /**
- * Small pieces of the desktop program: bridge argument checks, the display stretch and crops,
+ * Small pieces of the desktop program: bridge argument checks, the display stretch,
  * the optics choice, and finding the Electron binary without loading the electron package.
  */
 import { describe, expect, it } from 'vitest';
 import path from 'node:path';
 import * as check from '../../app/engine/validate.ts';
 import { stretchGrey } from '../../app/engine/stretch.ts';
-import { tileRects } from '../../app/engine/images.ts';
 import { chooseOptics, cameraKey, cameraOf } from '../../app/engine/pipeline.ts';
 import { findElectron } from '../../app/electron-path.ts';
 
@@ -69,18 +68,6 @@ describe('display stretch', () => {
     const flipped = stretchGrey(data, 4, { x0: 0, y0: 0, w: 4, h: 4 }, 2, true, s);
     // flipped: first output row = rows 3 and 2 = 2.5 -> 212.5
     expect(flipped.pixels[0]).toBe(212);
-  });
-
-  it('cuts the corner crops at the displayed corners', () => {
-    const t = Object.fromEntries(tileRects(1200, 800, true).map((r) => [r.name, r]));
-    // side min(128, 1200/4, 800/4) = 128; FITS display: the top is the last stored row
-    expect(t['top-left']).toMatchObject({ x0: 0, y0: 800 - 128, w: 128, h: 128 });
-    expect(t['bottom-right']).toMatchObject({ x0: 1200 - 128, y0: 0 });
-    expect(t.center).toMatchObject({ x0: (1200 - 128) / 2, y0: (800 - 128) / 2 });
-    // a small frame: a quarter of the shorter side
-    expect(tileRects(400, 300, false)[0]).toMatchObject({ w: 75, h: 75 });
-    const u = Object.fromEntries(tileRects(1200, 800, false).map((r) => [r.name, r]));
-    expect(u['top-left'].y0).toBe(0);
   });
 });
 

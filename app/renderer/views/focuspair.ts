@@ -3,10 +3,10 @@
  * is too close to the lens (core/series/focus-pair.ts, optics.md section 4). A single frame
  * gives the tilt's size only; its Findings send the user here.
  */
-import { esc, findingsHtml, num, pm } from '../../../core/report/svg/index.ts';
+import { esc, findingsHtml, num, pm, sensorSideSvg } from '../../../core/report/svg/index.ts';
 import type { AnalysisResult, FocusPairResult } from '../../preload/bridge.ts';
 import { h, setMarkup } from '../dom.ts';
-import { ACCEPT, button, fileFrom, toolbar } from '../widgets.ts';
+import { ACCEPT, button, fileFrom, figureWidth, fitFigure, toolbar } from '../widgets.ts';
 import { pageFindings } from './findings.ts';
 import type { View, ViewContext } from '../context.ts';
 
@@ -79,6 +79,13 @@ function render(el: HTMLElement, ctx: ViewContext): void {
   setMarkup(out, `<h2>Signed tilt</h2>${findingsHtml(r.findings)}${resultTable(r)}${r.note ? `<p class="muted">Note: ${esc(r.note)}.</p>` : ''}`);
   pageFindings(out, ctx);
   el.append(out);
+  // settled: the sensor edge-on with the side in front of focus named (views/sensor-side.ts draws one frame's)
+  if (r.signResolved && pair.first) {
+    const fig = h('div', { class: 'figure sensor-side-figure' });
+    setMarkup(fig, sensorSideSvg(pair.first.report, { theme: ctx.theme(), width: Math.min(figureWidth(), 1200), signed: r.tilt }));
+    fitFigure(fig);
+    el.append(fig);
+  }
 }
 
 export const focusPairView: View = { name: 'focuspair', label: 'Focus pair', key: '9', render };

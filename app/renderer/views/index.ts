@@ -6,8 +6,8 @@ import type { View } from '../context.ts';
 import { skyView } from './sky.ts';
 import { shapeView } from './shape.ts';
 import { sizeView } from './size.ts';
-import { focusView } from './focus.ts';
-import { cornersView } from './corners.ts';
+import { sensorSideView } from './sensor-side.ts';
+import { zonePsfView } from './zone-psf.ts';
 import { findingsView } from './findings.ts';
 import { compareView } from './compare.ts';
 import { sweepView } from './sweep.ts';
@@ -16,7 +16,7 @@ import { distortionView } from './distortion.ts';
 import { throughFocusView } from './through-focus.ts';
 
 export const VIEWS: readonly View[] = [
-  skyView, shapeView, sizeView, focusView, cornersView, findingsView, compareView, sweepView, focusPairView, distortionView, throughFocusView,
+  skyView, shapeView, sizeView, sensorSideView, zonePsfView, findingsView, compareView, sweepView, focusPairView, distortionView, throughFocusView,
 ];
 
 export function viewNamed(name: string): View | undefined {

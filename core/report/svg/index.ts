@@ -6,8 +6,8 @@ export { skySvg, markedStars, skyKey, skyKeyEntries, labelledMatches, type SkyKe
 export { scaleBar, roundLength, angleWords } from './scale-bar.ts';
 export { shapeSvg, shapeVectors } from './shape.ts';
 export { sizeSvg, heatGrid, heatUnavailable, ellipticityFromDistortion, finiteRange, QUANTITY_LABEL, type SizeQuantity } from './size.ts';
-export { focusSvg, planeGradient } from './focus.ts';
-export { cornersSvg, tileStats, starsInTile } from './corners.ts';
+export { sensorSideSvg, sensorSideData, sensorSideLayout, planeGradient, type SensorSideData, type SensorSection, type SectionEnd } from './sensor-side.ts';
+export { zonePsfSvg, zonePsfOf, zoneWords, displayedStack, PSF_CONTOURS } from './zone-psf.ts';
 export { stampSvg } from './stamp.ts';
 export { findingsHtml, findingsSvg, summaryHtml, numberLabel } from './panels.ts';
 export { compareTableHtml, sweepSvg } from './series.ts';

@@ -12,17 +12,6 @@ export interface Preview extends ImageRef {
   factor: number;
 }
 
-export type TileName = 'top-left' | 'top-right' | 'center' | 'bottom-left' | 'bottom-right';
-
-/** A full-resolution crop (1 image px = 1 frame px) at storage coordinates x0, y0 (size w x h). */
-export interface Tile extends ImageRef {
-  name: TileName;
-  x0: number;
-  y0: number;
-  w: number;
-  h: number;
-}
-
 /** Compare and sweep, as the views draw them (the app builds these from core/series). */
 export type Better = 'A' | 'B' | 'tie';
 
