@@ -118,6 +118,8 @@ export const NUMBER_WORDS: Readonly<Record<string, { label: string; unit?: strin
   acrossHeightUm: { label: 'focus change across the height', unit: 'µm' },
   acrossWidthErrUm: { label: 'focus change across the width, uncertainty', unit: 'µm' },
   acrossHeightErrUm: { label: 'focus change across the height, uncertainty', unit: 'µm' },
+  towardLens: { label: 'side to bring toward the lens' },
+  awayFromLens: { label: 'side farther from it' },
   acrossWidthBlurPx: { label: 'blur change across the width', unit: 'px' },
   acrossHeightBlurPx: { label: 'blur change across the height', unit: 'px' },
   axisDeg: { label: 'direction of steepest focus change', unit: '°' },

@@ -51,7 +51,8 @@ export async function launch(): Promise<{ ctx: BrowserContext; page: Page }> {
     args: ['--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run'],
   });
   // the profile is this launch's alone: gone when the browser closes
-  ctx.once('close', () => rmSync(profile, { recursive: true, force: true }));
+  // Chromium may still be writing its profile as the context closes: retry, and never fail a test over it
+  ctx.once('close', () => { try { rmSync(profile, { recursive: true, force: true, maxRetries: 10, retryDelay: 100 }); } catch { /* left for the OS's tmp cleaning */ } });
   const page = ctx.pages()[0] ?? (await ctx.newPage());
   return { ctx, page };
 }

@@ -173,8 +173,10 @@ describe('legends, scales and clipping (issue 12 item 7)', () => {
     const plate = report.frame.optics.plateScaleArcsecPerPx!;
     expect(z1.label).toContain(`${z1.px} px`);
     expect(z1.label).toMatch(/[″′°]/);
-    const minutes = Number(/([\d.]+)′/.exec(z1.label)?.[1]);
-    expect(Math.abs(minutes - (z1.px * plate) / 60)).toBeLessThan(0.6);
+    // the label's angle in arcminutes, whichever unit it is written in (1° = 60′, 1′ = 60″)
+    const ang = /([\d.]+)\s*([°′″])/.exec(z1.label)!;
+    const minutes = Number(ang[1]) * (ang[2] === '°' ? 60 : ang[2] === '″' ? 1 / 60 : 1);
+    expect(Math.abs(minutes - (z1.px * plate) / 60) / ((z1.px * plate) / 60)).toBeLessThan(0.02);
     await page.focus('#view');
     await page.keyboard.press('+');
     await page.keyboard.press('+');
@@ -321,12 +323,12 @@ describe('axes, keys and nothing cut off (issue 12 item 7)', () => {
     expect(await page.locator('svg#size-fwhmPx linearGradient').count()).toBe(1);
     expect(await clipped('svg#size-fwhmPx')).toEqual([]);
     await page.keyboard.press('4');
-    await page.waitForSelector('svg#focus-svg');
-    expect(await clipped('svg#focus-svg')).toEqual([]);
-    // narrow window: the focus plane's words wrap instead of running off
+    await page.waitForSelector('svg#sensor-side-svg');
+    expect(await clipped('svg#sensor-side-svg')).toEqual([]);
+    // narrow window: the sensor figure's words wrap instead of running off
     await page.setViewportSize({ width: 1100, height: 700 });
     await page.waitForTimeout(400);
-    expect(await clipped('svg#focus-svg')).toEqual([]);
+    expect(await clipped('svg#sensor-side-svg')).toEqual([]);
     await page.setViewportSize({ width: 1366, height: 768 });
     await page.waitForTimeout(400);
     await page.keyboard.press('1');
@@ -357,7 +359,7 @@ describe('axes, keys and nothing cut off (issue 12 item 7)', () => {
   it('explains the views and the terms in Help', async () => {
     await page.keyboard.press('?');
     const text = (await page.textContent('#help-dialog')) ?? '';
-    const labels = await page.$$eval('#tabs [role=tab]', (els: any[]) => els.map((e) => e.textContent.replace(/^\s*\d\s*/, '').trim()));
+    const labels = await page.$$eval('#tabs [role=tab]', (els: any[]) => els.map((e) => e.textContent.replace(/^\s*[0-9A-Za-z](?=\s*[A-Z])\s*/, '').trim()));
     for (const l of labels) expect(text).toContain(l);
     for (const term of ['FWHM', 'HFD', 'Ellipticity', 'Tilt', 'Coma', 'Field curvature']) expect(text).toContain(term);
     await page.keyboard.press('Escape');

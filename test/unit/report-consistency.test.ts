@@ -106,12 +106,12 @@ describe('the demo frame: one name, one value in CLI, JSON, CSV and HTML', () =>
     expect(text).not.toMatch(/\d ?um\b|\+-|\d deg\b|MAJOR/);
   });
 
-  it('the HTML report has a table of contents and the pictures the page shows: the sky and the close-ups', () => {
-    expect(html).toMatch(/<nav class="toc"[\s\S]*href="#sky"[\s\S]*href="#corners"/);
+  it('the HTML report has a table of contents and the pictures the page shows: the sky and the stacked stars', () => {
+    expect(html).toMatch(/<nav class="toc"[\s\S]*href="#sky"[\s\S]*href="#stacks"/);
     const sky = /<section id="sky">([\s\S]*?)<\/section>/.exec(html)![1];
     expect(sky).toMatch(/<image href="data:image\/jpeg;base64,/);
-    const corners = /<section id="corners">([\s\S]*?)<\/section>/.exec(html)![1];
-    expect(corners).not.toContain('no close-ups');
-    expect((corners.match(/<image href="data:image\/png;base64,/g) ?? []).length).toBe(5);
+    // the close-ups are the report's zone stacks: one drawn stack per zone of report.zonePsf
+    const stacks = /<section id="stacks">([\s\S]*?)<\/section>/.exec(html)![1];
+    expect((stacks.match(/<g class="zone-psf" /g) ?? []).length).toBe(json.zonePsf.zones.length);
   });
 });

@@ -156,7 +156,7 @@ describe('words people read carry µm, ±, °', () => {
   const files = [
     'core/diagnose/findings.ts', 'core/diagnose/tilt.ts', 'core/diagnose/trailing.ts', 'core/diagnose/format.ts',
     'core/sky/finding.ts', 'core/sky/words.ts', 'core/cli/summary.ts', 'core/report/html.ts', 'core/report/words.ts',
-    'core/report/svg/panels.ts', 'core/report/svg/focus.ts', 'core/report/svg/corners.ts', 'core/report/svg/size.ts',
+    'core/report/svg/panels.ts', 'core/report/svg/sensor-side.ts', 'core/report/svg/zone-psf.ts', 'core/report/svg/size.ts',
   ];
   it.each(files)('%s', (f) => {
     const bad = strings(path.resolve(f)).filter((s) => /[\d}] ?um\b|\+-|[\d}] ?deg\b/.test(s));

@@ -118,8 +118,9 @@ describe('sensor edge-on: the drawn geometry is the report\'s', () => {
   });
 
   it('draws a focus pair\'s settled tilt: the side farther from the lens behind focus, no mirror reading', () => {
-    // focus pair convention (core/series/focus-pair-types.ts): > 0 = that side farther from the lens
-    const signed = { acrossFrameUm: { x: 30, y: 0 }, acrossFrameErrUm: { x: 1, y: 1 }, axisErrDeg: 1, significant: true };
+    // focus pair convention (DESIGN.md, core/series/focus-pair-types.ts): change of best-focus
+    // position; -30 across the width = best focus 30 µm nearer at the right: the right side is behind focus
+    const signed = { acrossFrameUm: { x: -30, y: 0 }, acrossFrameErrUm: { x: 1, y: 1 }, axisErrDeg: 1, significant: true };
     const r = tiltReport(0.001, 0);
     const dd = sensorSideData(r, signed)!;
     expect(dd.signResolved).toBe(true);

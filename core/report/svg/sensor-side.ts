@@ -15,8 +15,9 @@ import { diagnosisOf, emptyFigure, esc, num, pm, r2, svgOpen, text } from './uti
 const SEVERITY_WORDS: Record<string, string> = { major: 'Act on it', minor: 'Worth a look', info: 'Note' };
 
 /**
- * A tilt whose sign is settled (a focus pair, core/series/focus-pair.ts): signed focus changes
- * across the width (+x) and height (+y), µm, > 0 = that side farther from the lens (behind focus).
+ * A tilt whose sign is settled (a focus pair, core/series/focus-pair.ts): the change of best-focus
+ * position across the width (+x) and height (+y), µm, as the pair reports it (DESIGN.md); < 0 = that
+ * side's best focus is nearer, so that side sits behind focus (too far from the lens).
  */
 export interface SignedTilt {
   acrossFrameUm: { x: number; y: number };
@@ -96,8 +97,10 @@ export function sensorSideData(report: Report, signed: SignedTilt | null = null)
   let grad: { gx: number; gy: number } | null;
   if (signed) {
     // the pair's signs are the plane's own: no axis quadrant to borrow
-    const gx = signed.acrossFrameUm.x / W;
-    const gy = signed.acrossFrameUm.y / H;
+    // the pair reports the change of best-focus position (DESIGN.md); the figure draws the focus
+    // error, its negative: where best focus comes nearer, that side sits behind focus
+    const gx = -signed.acrossFrameUm.x / W;
+    const gy = -signed.acrossFrameUm.y / H;
     t = { axisDeg: (Math.atan2(gy, gx) * 180) / Math.PI, axisErrDeg: signed.axisErrDeg, significant: signed.significant, signResolved: true, corners: [] };
     um = true;
     acrossErr = signed.acrossFrameErrUm;
