@@ -1,7 +1,7 @@
 /** HTML fragments shared by the page and the HTML report: the findings and the summary table. */
 import type { Report, ZoneSummary } from '../types.ts';
 import { QUANTITIES, bySeverity, findingNumberRows, formatQuantity, numberLabel, severityWord } from '../words.ts';
-import { esc, num, svgOpen, text } from './util.ts';
+import { esc, num, svgOpen, text, wrapWords } from './util.ts';
 import type { Theme } from './theme.ts';
 import { saturationText } from '../../frame/saturation.ts';
 
@@ -51,16 +51,7 @@ export function findingsSvg(findings: Report['findings'], opts: { theme: Theme; 
   const { theme } = opts;
   const width = opts.width ?? 800;
   const chars = Math.max(30, Math.floor((width - 40) / 7.2));
-  const wrap = (s: string) => {
-    const out: string[] = [];
-    let cur = '';
-    for (const w of s.split(/\s+/)) {
-      if ((cur + ' ' + w).trim().length > chars) { out.push(cur); cur = w; } else cur = (cur + ' ' + w).trim();
-    }
-    if (cur) out.push(cur);
-    return out;
-  };
-  const blocks = bySeverity(findings ?? []).map((f) => ({ head: severityWord(f.severity), lines: wrap(f.message), f }));
+  const blocks = bySeverity(findings ?? []).map((f) => ({ head: severityWord(f.severity), lines: wrapWords(f.message, chars), f }));
   const height = 50 + blocks.reduce((a, b) => a + 24 + b.lines.length * 16 + 10, 0) + (blocks.length ? 0 : 20);
   let out = svgOpen(width, height, 'Findings', theme, 'findings-svg');
   out += text(16, 26, findings === undefined ? 'Findings: no diagnosis in this report' : `Findings (${blocks.length})`, theme, { size: 15, weight: '600' });

@@ -9,7 +9,7 @@
 import type { Report } from '../types.ts';
 import type { TiltDiagnosis } from '../../diagnose/types.ts';
 import type { Theme } from './theme.ts';
-import { diagnosisOf, emptyFigure, esc, num, pm, r2, svgOpen, text } from './util.ts';
+import { diagnosisOf, emptyFigure, esc, num, pm, r2, svgOpen, text, wrapWords } from './util.ts';
 
 /** The severity scale in people's words (JSON keeps major | minor | info). */
 const SEVERITY_WORDS: Record<string, string> = { major: 'Act on it', minor: 'Worth a look', info: 'Note' };
@@ -215,7 +215,7 @@ export function sensorSideSvg(report: Report, opts: SensorSideOptions): string {
   const top = 86;
   const L = sensorSideLayout(d, panelW, panelH);
   const curv = !signed && dg?.curvature?.significant && dg.curvature.cornerDefocusUm !== null ? dg.curvature.cornerDefocusUm : null;
-  const noteLines = wrap(actionText(d, note, curv), Math.floor(width / 7));
+  const noteLines = wrapWords(actionText(d, note, curv), Math.floor(width / 7));
   const height = top + panelH + 70 + noteLines.length * 16;
   let out = svgOpen(width, height, label, theme, 'sensor-side-svg');
   out = out.replace('<svg ', `<svg data-z-scale="${L.zScale}" data-s-scale="${L.sScale}" data-exaggeration="${Number.isFinite(L.exaggeration) ? L.exaggeration : ''}" data-significant="${d.significant}" data-sign-resolved="${d.signResolved}" `);
@@ -255,16 +255,6 @@ function actionText(d: SensorSideData, note: string | null, curvatureUm: number 
   if (curvatureUm !== null) parts.push(`Field curvature also bends best focus, by about ${num(curvatureUm, 0)} µm at the corners against the centre; it is symmetric about the centre, so no tilt of the sensor removes it (not drawn).`);
   if (note) parts.push(note.replace(/\bum\b/g, 'µm').replace(/\+-/g, '±').replace(/\bdeg\b/g, '°'));
   return parts.join(' ');
-}
-
-function wrap(s: string, chars: number): string[] {
-  const out: string[] = [];
-  let cur = '';
-  for (const w of s.split(/\s+/)) {
-    if ((cur + ' ' + w).trim().length > chars) { out.push(cur); cur = w; } else cur = (cur + ' ' + w).trim();
-  }
-  if (cur) out.push(cur);
-  return out;
 }
 
 function panel(s: SensorSection, d: SensorSideData, L: SensorSideLayout, X: number, Y: number, w: number, h: number, theme: Theme, report: Report): string {

@@ -9,7 +9,7 @@ import { contours } from 'd3-contour';
 import type { Report } from '../types.ts';
 import type { ZonePsf, ZonePsfSection } from '../../field/zone-psf-types.ts';
 import type { Theme } from './theme.ts';
-import { emptyFigure, esc, num, pm, r2, svgOpen, text } from './util.ts';
+import { emptyFigure, esc, num, pm, r2, svgOpen, text, wrapWords } from './util.ts';
 
 export interface ZonePsfOptions { theme: Theme; width?: number; /** Fit into this height too. */ maxHeight?: number; id?: string; /** The page lists a zone's stars on a click (the HTML report cannot). */ interactive?: boolean }
 
@@ -72,7 +72,7 @@ export function zonePsfSvg(report: Report, opts: ZonePsfOptions): string {
   // a column is as wide as the words beneath its square (11 px text, about 6.3 px a character)
   const colW = Math.max(cell, Math.max(...zp.zones.map((z) => Math.max(...zoneWords(z).map((w) => w.length)))) * 6.3);
   const figW = gap * (zp.cols + 1) + zp.cols * colW + keyW;
-  const notes = wrap(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM.${opts.interactive ? ' Click a zone for its stars.' : ''}${zp.note ? ` Note: ${zp.note}.` : ''}`, Math.floor((figW - 2 * gap) / 6.2));
+  const notes = wrapWords(`Each zone's clean stars aligned on their centres and averaged, on one brightness scale; each square is ${num(side * zp.pixelScale, 0)} × ${num(side * zp.pixelScale, 0)} frame px. Lines at ${PSF_CONTOURS.map((c) => `${Math.round(c * 100)} %`).join(', ')} of each stack's own peak: the ${Math.round(PSF_CONTOURS[0] * 100)} % line traces the FWHM.${opts.interactive ? ' Click a zone for its stars.' : ''}${zp.note ? ` Note: ${zp.note}.` : ''}`, Math.floor((figW - 2 * gap) / 6.2));
   const head = 30 + notes.length * 14;
   const height = head + zp.rows * (cell + words + 16 + gap) + gap;
   const peak = Math.max(...zp.zones.map((z) => (z.ppm ? Math.max(...z.ppm) : 0)), 1);
@@ -141,12 +141,3 @@ function intensityKey(x: number, y: number, h: number, peak: number, theme: Them
   return out;
 }
 
-function wrap(s: string, chars: number): string[] {
-  const out: string[] = [];
-  let cur = '';
-  for (const w of s.split(/\s+/)) {
-    if ((cur + ' ' + w).trim().length > chars) { out.push(cur); cur = w; } else cur = (cur + ' ' + w).trim();
-  }
-  if (cur) out.push(cur);
-  return out;
-}
